@@ -1,0 +1,39 @@
+import type { Worker } from "bullmq";
+import { startJobWorker } from "../../jobs/worker-core";
+import { migrateDatabase } from "./db/client.server";
+import { env } from "./env.server";
+import { requeueLostJobs } from "./jobs.server";
+import { logger } from "./logger.server";
+import { seedDemo } from "./seed.server";
+
+let booting: Promise<void> | undefined;
+let embeddedWorker: Worker | undefined;
+
+/**
+ * Start-up of the web process, once: check settings, migrate, seed demo data, start the
+ * embedded worker when no REDIS_URL is set, and queue again whatever the queue lost.
+ */
+export function boot(): Promise<void> {
+  booting ??= (async () => {
+    const settings = env();
+    await migrateDatabase();
+    if (settings.demo) await seedDemo();
+    if (!settings.REDIS_URL) {
+      embeddedWorker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
+      logger.info("Queue: embedded (in-memory Redis fake); jobs run inside this process.");
+    } else {
+      logger.info("Queue: Redis at REDIS_URL; run `npm run worker` to process jobs.");
+    }
+    try {
+      const n = await requeueLostJobs();
+      if (n > 0) logger.warn({ jobs: n }, "queued again jobs that the queue had lost");
+    } catch (error) {
+      logger.error({ err: error }, "could not check the queue for lost jobs; they will be checked at the next start");
+    }
+  })();
+  return booting;
+}
+
+export function embeddedWorkerRunning(): boolean {
+  return Boolean(embeddedWorker?.isRunning());
+}
