@@ -14,7 +14,7 @@ const schema = z.object({
   REDIS_URL: z.string().url().optional(),
   STORAGE_DIR: z.string().min(1).default("data/storage"),
   AUTH_SECRET: z.string().min(32, "AUTH_SECRET must be at least 32 characters").optional(),
-  BASE_URL: z.string().url().optional(),
+  PUBLIC_URL: z.string().url().optional(),
   PORT: z.coerce.number().int().positive().default(3000),
   LOG_LEVEL: z.enum(["fatal", "error", "warn", "info", "debug", "trace", "silent"]).default("info"),
   WORKER_CONCURRENCY: z.coerce.number().int().min(1).max(64).default(1),
@@ -41,7 +41,7 @@ export function env(): Env {
     ...e,
     demo,
     authSecret: e.AUTH_SECRET ?? devAuthSecret(e.NODE_ENV === "production" && !demo),
-    baseURL: e.BASE_URL ?? `http://localhost:${e.PORT}`,
+    baseURL: e.PUBLIC_URL ?? `http://localhost:${e.PORT}`,
   };
   return cached;
 }

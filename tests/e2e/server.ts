@@ -41,7 +41,7 @@ export async function startServer(extraEnv: Record<string, string> = {}): Promis
       DATABASE_URL: `file:${join(dataDir, "lissom.db")}`,
       STORAGE_DIR: join(dataDir, "storage"),
       AUTH_SECRET: "e2e-secret-e2e-secret-e2e-secret-e2e-secret",
-      BASE_URL: `http://127.0.0.1:${port}`,
+      PUBLIC_URL: `http://127.0.0.1:${port}`,
       LOG_LEVEL: "warn",
       ...extraEnv,
     },

@@ -12,7 +12,7 @@ export async function bootTestApp() {
   process.env.DATABASE_URL = `file:${join(dir, "lissom.db")}`;
   process.env.STORAGE_DIR = join(dir, "storage");
   process.env.AUTH_SECRET = "test-secret-test-secret-test-secret-42";
-  process.env.BASE_URL = "http://lissom.test";
+  process.env.PUBLIC_URL = "http://lissom.test";
   process.env.LISSOM_DEMO = "1";
   process.env.NODE_ENV = "test";
   const { boot } = await import("../../../app/.server/boot.server");
