@@ -142,7 +142,7 @@ function readParts(geometry: unknown, kind: CrsKind): Parts | null {
       if (kind.kind === "geographic") {
         const [x, y] = pts[i] as number[];
         if (x < -180 || x > 180 || y < -90 || y > 90)
-          throw new FeatureError(`position ${i} of part ${pi} (${x}, ${y}) is outside longitude/latitude range; pass the dataset's CRS`);
+          throw new FeatureError(`position ${i} of part ${pi} (${x}, ${y}) is outside the longitude/latitude range of ${kind.code}`);
       }
     }
     if (pts.length === 0) throw new FeatureError(`part ${pi} has no positions`);
