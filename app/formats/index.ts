@@ -54,3 +54,20 @@ export type {
   Position,
   ReadOptions,
 } from "./types";
+
+/*
+ * ## Writing
+ *
+ *   writeOutput(format, features, destPath, meta?) : Promise<WriteResult>
+ *
+ * `format` is one of `geojson`, `ndjson`, `shapefile` (a .zip), `gml`, `svg`, `csv`
+ * (`outputFormatForPath` picks it from a file name); `features` is an async iterable of
+ * GeoJSON Features in input order, as the step runners produce them (discretised `geometry`,
+ * optional `curves` member, `properties`); `meta` (`OutputMeta`) carries the tolerance, the
+ * steps, the source dataset and the CRS, and ends up in every output. The files are written
+ * under temporary names and renamed into place only once complete; on any error nothing is
+ * left. The result lists every file written (main file first), counts and notes.
+ */
+export { writeOutput, outputFormatForPath, sidecarPath, OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES } from "./write/index";
+export type { OutputMeta, WriteResult } from "./write/index";
+export { DEFAULT_CAUTION } from "./write/meta";
