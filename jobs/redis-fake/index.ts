@@ -1,0 +1,30 @@
+/**
+ * The in-memory Redis used in embedded mode: ioredis-mock made able to run BullMQ.
+ *
+ * Contract: `createFakeRedis()` returns an ioredis-compatible connection (a `FakeRedis`);
+ * every connection made by it, and every `duplicate()` of one, shares one data space for the
+ * life of the process; `resetFakeRedis()` empties that data space (FLUSHALL). See
+ * fake-redis.ts for the commands and script-runner.ts for the script semantics.
+ *
+ * Not covered yet: see the lists in fake-redis.ts, script-runner.ts, prelude.ts, cjson.ts,
+ * cmsgpack.ts and streams.ts.
+ */
+import { FakeRedis, type FakeRedisOptions } from "./fake-redis";
+
+export { FakeRedis, scriptRunner, type FakeRedisOptions } from "./fake-redis";
+export { EMULATED_REDIS_VERSION, LOG_LEVELS, type ScriptLogSink } from "./script-runner";
+
+/** The host name that keys the embedded data space (ioredis-mock shares data per host:port/db). */
+const EMBEDDED_HOST = "lissom-embedded";
+
+export function createFakeRedis(options: FakeRedisOptions = {}): FakeRedis {
+  return new FakeRedis({ ...options, host: EMBEDDED_HOST, port: 6379, db: 0 });
+}
+
+/** Empties the embedded data space; connections stay open and scripts stay loaded. */
+export function resetFakeRedis(): void {
+  const probe = createFakeRedis({ lazyConnect: true });
+  probe.data.clear();
+  probe.expires.clear();
+  probe.disconnect();
+}
