@@ -1,3 +1,6 @@
+import { readFileSync } from "node:fs";
+import { createRequire } from "node:module";
+import { dirname, join } from "node:path";
 import proj4 from "proj4";
 
 /**
@@ -51,6 +54,19 @@ export function normaliseCrsCode(input: string): string {
  */
 function ensureDefinition(code: string): boolean {
   if (proj4.defs(code)) return true;
+  const fromIndex = epsgEntry(code);
+  if (fromIndex?.proj4) {
+    // Grid shift files are not available to proj4 here; without them proj4 applies no datum
+    // shift, so conversions between datums are approximate (metres), while lengths and areas
+    // within the CRS, which is what the steps use, are unaffected.
+    const def = fromIndex.proj4.replace(/\s*\+nadgrids=\S+/g, "");
+    try {
+      proj4.defs(code, def);
+      return true;
+    } catch {
+      return false;
+    }
+  }
   const utm = /^EPSG:(326|327)(\d\d)$/.exec(code);
   if (utm) {
     const zone = Number(utm[2]);
@@ -61,6 +77,48 @@ function ensureDefinition(code: string): boolean {
     }
   }
   return false;
+}
+
+interface EpsgEntry {
+  code: string;
+  name: string;
+  kind: string;
+  wkt?: string;
+  proj4?: string;
+  unit?: string;
+}
+
+let epsgDir: string | null | undefined;
+const epsgCache = new Map<string, EpsgEntry | null>();
+
+/**
+ * One EPSG entry from the `epsg-index` package (EPSG registry data as WKT and proj4 strings,
+ * one small JSON file per code, so nothing large is loaded).
+ */
+export function epsgEntry(code: string): EpsgEntry | null {
+  const m = /^EPSG:(\d+)$/.exec(code);
+  if (!m) return null;
+  if (epsgCache.has(m[1]!)) return epsgCache.get(m[1]!)!;
+  let entry: EpsgEntry | null = null;
+  try {
+    if (epsgDir === undefined) {
+      const require = createRequire(import.meta.url);
+      epsgDir = join(dirname(require.resolve("epsg-index/package.json")), "s");
+    }
+    if (epsgDir) entry = JSON.parse(readFileSync(join(epsgDir, `${m[1]}.json`), "utf8")) as EpsgEntry;
+  } catch {
+    entry = null;
+  }
+  epsgCache.set(m[1]!, entry);
+  return entry;
+}
+
+/** WKT (OGC WKT 1) for a code, for .prj files: from `epsg-index`, or built for UTM zones. */
+export function wktFor(code: string): string | null {
+  const normal = normaliseCrsCode(code);
+  const entry = epsgEntry(normal);
+  if (entry?.wkt) return entry.wkt;
+  return null;
 }
 
 let wktCounter = 0;
@@ -76,8 +134,9 @@ export function resolveCrs(input: string): ResolvedCrs | null {
   if (trimmed.startsWith("WKT:")) return null;
   const code = normaliseCrsCode(trimmed);
   if (!ensureDefinition(code)) return null;
-  const def = proj4.defs(code) as unknown as { projName?: string; title?: string; units?: string; to_meter?: number; srsCode?: string };
-  return describe(code, code, def);
+  const def = proj4.defs(code) as unknown as { projName?: string; title?: string; name?: string; units?: string; to_meter?: number; srsCode?: string };
+  const named = epsgEntry(code)?.name;
+  return describe(code, code, named ? { ...def, name: named } : def);
 }
 
 function resolveWkt(wkt: string): ResolvedCrs | null {

@@ -96,9 +96,28 @@ function disagree(file: InputFile, expected: string, found: Sniffed, hint?: stri
  * set (.shp with its .shx/.dbf/.prj/.cpg). Refuses uploads over the size limit, mixed uploads,
  * unknown extensions and files whose name and content disagree.
  */
-export async function detectInput(files: InputFile[]): Promise<DetectedInput> {
+export async function detectInput(files: InputFile[], opts: { inArchive?: string; onIgnored?: (file: InputFile) => void } = {}): Promise<DetectedInput> {
   if (files.length === 0) throw new DatasetInputError({ file: "(upload)", reason: "no file was given", hint: "Choose a GeoJSON file, a zipped Shapefile or the .shp/.shx/.dbf/.prj files" });
-  for (const f of files) {
+  if (opts.inArchive) {
+    // Inside an archive: unpacked sizes were capped while unpacking; unknown files are ignored.
+    // With a Shapefile inside, other files (a metadata .json, a readme) travel along unread.
+    const hasShp = files.some((f) => extensionOf(f.name) === ".shp");
+    const known = files.filter((f) => {
+      const ext = extensionOf(f.name);
+      const ok = hasShp ? INPUT_EXTENSIONS[ext] === "shapefile-part" || SHAPEFILE_EXTRAS.has(ext) : Boolean(INPUT_EXTENSIONS[ext]) || SHAPEFILE_EXTRAS.has(ext);
+      if (!ok) opts.onIgnored?.(f);
+      return ok;
+    });
+    if (known.some((f) => extensionOf(f.name) === ".zip")) {
+      const inner = known.find((f) => extensionOf(f.name) === ".zip")!;
+      throw new DatasetInputError({ file: inner.name, reason: "a zip archive inside the zip archive", hint: "Zip the dataset's files directly, not another archive" });
+    }
+    if (known.length === 0) {
+      throw new DatasetInputError({ file: opts.inArchive, reason: `the archive holds no file Lissom reads (${files.map((f) => f.name.split("/").pop()).join(", ")})`, hint: "Zip the parts of one Shapefile (.shp, .shx, .dbf, .prj, .cpg) or one GeoJSON file" });
+    }
+    files = known;
+  }
+  for (const f of opts.inArchive ? [] : files) {
     const { size } = await stat(f.path);
     if (size > MAX_UPLOAD_BYTES) {
       throw new DatasetInputError({
@@ -149,7 +168,11 @@ export async function detectInput(files: InputFile[]): Promise<DetectedInput> {
   for (const { f, ext } of kinds) byExt.set(ext, [...(byExt.get(ext) ?? []), f]);
   for (const [ext, list] of byExt) {
     if (list.length > 1 && !SHAPEFILE_EXTRAS.has(ext)) {
-      throw new DatasetInputError({ file: list[1]!.name, reason: `a second ${ext} file in one upload (also ${list[0]!.name})`, hint: "Upload the parts of one Shapefile at a time" });
+      throw new DatasetInputError({
+        file: list[1]!.name,
+        reason: `a second ${ext} file in one ${opts.inArchive ? "archive" : "upload"} (also ${list[0]!.name})`,
+        hint: opts.inArchive ? "Zip one Shapefile per archive" : "Upload the parts of one Shapefile at a time",
+      });
     }
   }
   const shp = byExt.get(".shp")?.[0];
@@ -184,7 +207,9 @@ export async function checkShapefilePartContent(parts: ShapefileParts): Promise<
     if (!file) continue;
     const found = await sniff(file.path);
     if (found === "empty") throw new DatasetInputError({ file: file.name, reason: "the file is empty (0 bytes)", hint: "Export the Shapefile again; this part has no content" });
-    if (found !== expected && !(expected === "dbf" && found === "binary")) disagree(file, label, found);
+    // Binary content that is not recognisably another format goes on to the header checks,
+    // which name the exact fault (a wrong file code, a bad header length).
+    if (found !== expected && found !== "binary" && !(expected === "shp" && found === "dbf")) disagree(file, label, found);
   }
 }
 

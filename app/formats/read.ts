@@ -1,8 +1,9 @@
 import type { ResolvedCrs } from "./crs";
 import { detectInput } from "./detect";
-import { DatasetInputError } from "./errors";
 import type { ReaderSink } from "./gate";
 import { readGeoJSON, readJsonLines } from "./geojson/read";
+import { readShapefile } from "./shapefile/read";
+import { unpackZip } from "./zip";
 import { SummaryBuilder } from "./summary";
 import type { CrsSummary, DatasetSummary, DatasetWarning, FeatureItem, InputFile, InputFormat, ReadOptions } from "./types";
 
@@ -15,18 +16,41 @@ interface Opened {
 async function openInput(files: InputFile[], options: ReadOptions): Promise<Opened> {
   const input = await detectInput(files);
   const names = files.map((f) => f.name);
+  if (input.kind === "zip") {
+    const opened: Opened = {
+      format: "shapefile",
+      names,
+      features: async function* (sink) {
+        const unpacked = await unpackZip(input.file);
+        try {
+          const ignored: string[] = [];
+          const inner = await detectInput(unpacked.files, { inArchive: input.file.name, onIgnored: (f) => ignored.push(f.name.split("/").pop()!) });
+          if (ignored.length) sink.warn({ message: `files in the archive not read: ${ignored.join(", ")}`, action: "note" });
+          if (inner.kind === "zip") throw new Error("nested archive slipped through detection");
+          // A zip may carry GeoJSON too; the summary names what was inside.
+          opened.format = inner.kind;
+          yield* openDetected(inner, options)(sink);
+        } finally {
+          await unpacked.dispose();
+        }
+      },
+    };
+    return opened;
+  }
+  const features = openDetected(input, options);
+  return { format: input.kind === "shapefile" ? "shapefile" : input.kind, names, features };
+}
+
+function openDetected(input: Exclude<Awaited<ReturnType<typeof detectInput>>, { kind: "zip" }>, options: ReadOptions): (sink: ReaderSink) => AsyncGenerator<FeatureItem> {
   switch (input.kind) {
     case "geojson":
-      return { format: "geojson", names, features: (sink) => readGeoJSON(input.file, options, sink) };
+      return (sink) => readGeoJSON(input.file, options, sink);
     case "ndjson":
-      return { format: "ndjson", names, features: (sink) => readJsonLines(input.file, options, sink, false) };
+      return (sink) => readJsonLines(input.file, options, sink, false);
     case "geojsonseq":
-      return { format: "geojsonseq", names, features: (sink) => readJsonLines(input.file, options, sink, true) };
-    case "zip":
-    case "shapefile": {
-      const file = input.kind === "zip" ? input.file.name : input.parts.shp.name;
-      throw new DatasetInputError({ file, reason: "Shapefile reading is not available in this build yet", hint: "Convert the Shapefile to GeoJSON for now" });
-    }
+      return (sink) => readJsonLines(input.file, options, sink, true);
+    case "shapefile":
+      return (sink) => readShapefile(input.parts, options, sink);
   }
 }
 

@@ -49,8 +49,8 @@ export type OutputFormat = "geojson" | "ndjson" | "shapefile" | "gml" | "svg" | 
 export interface CrsSummary {
   /** An identifier `resolveCrs` accepts again: `EPSG:4326`, `EPSG:27700`, or `WKT:<name>` for a .prj without an authority code. */
   code: string;
-  /** Where the CRS came from: RFC 7946's default, the legacy `crs` member, a .prj file, or the caller's option. */
-  source: "rfc7946" | "crs-member" | "prj" | "option";
+  /** Where the CRS came from: RFC 7946's default, the legacy `crs` member, a .prj file, the caller's option, or assumed (a Shapefile without .prj whose coordinates fit longitude/latitude). */
+  source: "rfc7946" | "crs-member" | "prj" | "option" | "assumed";
   /** True when the file declared its CRS in a way RFC 7946 no longer allows (the `crs` member). */
   nonStandard?: boolean;
   /** Human-readable name (from the .prj WKT or the definition). */

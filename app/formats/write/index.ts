@@ -3,6 +3,7 @@ import type { OutputFormat } from "../types";
 import { writeAtomically } from "./file-sink";
 import { writeGeoJSON, writeNdjson } from "./geojson";
 import { metadataDocument, type OutputMeta, type WriteResult } from "./meta";
+import { writeShapefileZip } from "../shapefile/write";
 
 export const OUTPUT_MEDIA_TYPES: Record<OutputFormat, string> = {
   geojson: "application/geo+json",
@@ -50,6 +51,8 @@ export async function writeOutput(format: OutputFormat, features: AsyncIterable<
         return { format, mediaType, files: [destPath, sidecar], ...r };
       });
     }
+    case "shapefile":
+      return writeAtomically([destPath], async ([tmp]) => ({ format, mediaType, files: [destPath], ...(await writeShapefileZip(features, tmp!, meta, destPath)) }));
     default:
       throw new Error(`writing ${format} output is not available in this build yet; choose geojson or ndjson`);
   }
