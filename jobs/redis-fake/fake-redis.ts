@@ -378,7 +378,9 @@ export class FakeRedis extends (Mock as MockConstructor) {
   /** One command from inside a script: synchronous, never blocking. */
   private callFromScript(name: string, args: CommandArg[]): unknown {
     if (NOT_IN_SCRIPTS.has(name)) throw new Error("ERR This Redis command is not allowed from script");
-    const impl = this.overrides[name] ?? MOCK_EMULATORS[name];
+    // GET is the one ioredis-mock emulator that decodes a stored Buffer to text; scripts
+    // must see the bytes.
+    const impl = name === "get" ? MOCK_EMULATORS.getBuffer : (this.overrides[name] ?? MOCK_EMULATORS[name]);
     if (!impl || name.endsWith("Buffer") || name === "evaluate") throw new UnknownCommandError();
     const result = this.execute(name, impl, args);
     if (result instanceof Promise) {
@@ -621,7 +623,66 @@ function inLexRange(member: string, min: ReturnType<typeof parseLexBound>, max: 
   return aboveMin && belowMax;
 }
 
+const INT64_MIN = -(2n ** 63n);
+const INT64_MAX = 2n ** 63n - 1n;
+
+/** Redis's string2ll: an optional "-", digits without leading zeros, within int64. */
+function parseInt64(text: unknown): bigint | null {
+  const s = text === undefined || text === null ? "" : String(text);
+  if (!/^(0|-?[1-9][0-9]*)$/.test(s)) return null;
+  const n = BigInt(s);
+  return n < INT64_MIN || n > INT64_MAX ? null : n;
+}
+
+function incrementBy(fake: FakeRedis, key: CommandArg, increment: CommandArg | bigint): number {
+  const k = String(key);
+  const by = typeof increment === "bigint" ? increment : parseInt64(increment);
+  if (by === null) throw new Error("ERR value is not an integer or out of range");
+  const current = fake.data.has(k) ? fake.data.get(k) : "0";
+  if (typeof current !== "string" && !Buffer.isBuffer(current)) throw new Error(WRONGTYPE);
+  const value = parseInt64(String(current));
+  if (value === null) throw new Error("ERR value is not an integer or out of range");
+  const next = value + by;
+  if (next < INT64_MIN || next > INT64_MAX) throw new Error("ERR increment or decrement would overflow");
+  fake.data.set(k, next.toString());
+  return Number(next);
+}
+
 const OVERRIDES: Record<string, Emulator> = {
+  // -- strings and hashes: ioredis-mock adds "abc" + 1 into NaN instead of refusing.
+  incr(key) {
+    return incrementBy(this, key, 1n);
+  },
+  decr(key) {
+    return incrementBy(this, key, -1n);
+  },
+  incrby(key, increment) {
+    return incrementBy(this, key, increment);
+  },
+  decrby(key, decrement) {
+    const by = parseInt64(decrement);
+    if (by === null) throw new Error("ERR value is not an integer or out of range");
+    return incrementBy(this, key, -by);
+  },
+  hincrby(key, field, increment) {
+    const k = String(key);
+    const by = parseInt64(increment);
+    if (by === null) throw new Error("ERR value is not an integer or out of range");
+    const hash = this.data.has(k) ? this.data.get(k) : {};
+    if (!hash || typeof hash !== "object" || Array.isArray(hash) || hash instanceof Map || hash instanceof Set || Buffer.isBuffer(hash) || isStoredStream(hash)) {
+      throw new Error(WRONGTYPE);
+    }
+    const record = hash as Record<string, string | Buffer>;
+    const f = String(field);
+    const current = Object.prototype.hasOwnProperty.call(record, f) ? parseInt64(String(record[f])) : 0n;
+    if (current === null) throw new Error("ERR hash value is not an integer");
+    const next = current + by;
+    if (next < INT64_MIN || next > INT64_MAX) throw new Error("ERR increment or decrement would overflow");
+    record[f] = next.toString();
+    this.data.set(k, record);
+    return Number(next);
+  },
+
   // -- sorted sets
   bzpopmin(...args) {
     return blockingPop(this, args, false);

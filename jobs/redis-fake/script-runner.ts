@@ -415,9 +415,9 @@ export class ScriptRunner {
     vm.pushFunction(L, (C) => this.luaCall(C, false));
     vm.rawSetField(L, -2, "pcall");
     vm.pushFunction(L, (C) => {
-      if (vm.top(C) !== 1) throw new LuaRaise("wrong number of arguments", true);
+      if (vm.top(C) !== 1) throw new LuaRaise("ERR wrong number of arguments", true);
       const ty = vm.type(C, 1);
-      if (ty !== T.STRING && ty !== T.NUMBER) throw new LuaRaise("wrong number of arguments", true);
+      if (ty !== T.STRING && ty !== T.NUMBER) throw new LuaRaise("ERR wrong number of arguments", true);
       vm.pushString(C, createHash("sha1").update(vm.toBytes(C, 1)).digest("hex"));
       return 1;
     });
@@ -445,10 +445,10 @@ export class ScriptRunner {
     vm.rawSetField(L, -2, "status_reply");
     vm.pushFunction(L, (C) => {
       const n = vm.top(C);
-      if (n < 2) throw new LuaRaise("redis.log() requires two arguments or more.", true);
-      if (vm.type(C, 1) !== T.NUMBER) throw new LuaRaise("First argument must be a number (log level).", true);
+      if (n < 2) throw new LuaRaise("ERR redis.log() requires two arguments or more.", true);
+      if (vm.type(C, 1) !== T.NUMBER) throw new LuaRaise("ERR First argument must be a number (log level).", true);
       const level = Number(vm.isInteger(C, 1) ? vm.toInteger(C, 1) : Math.trunc(vm.toNumber(C, 1)));
-      if (level < LOG_LEVELS.LOG_DEBUG || level > LOG_LEVELS.LOG_WARNING) throw new LuaRaise("Invalid debug level.", true);
+      if (level < LOG_LEVELS.LOG_DEBUG || level > LOG_LEVELS.LOG_WARNING) throw new LuaRaise("ERR Invalid debug level.", true);
       const parts: string[] = [];
       for (let i = 2; i <= n; i++) {
         const ty = vm.type(C, i);
@@ -459,17 +459,17 @@ export class ScriptRunner {
     });
     vm.rawSetField(L, -2, "log");
     vm.pushFunction(L, (C) => {
-      if (vm.top(C) !== 1) throw new LuaRaise("redis.setresp() requires one argument.", true);
+      if (vm.top(C) !== 1) throw new LuaRaise("ERR redis.setresp() requires one argument.", true);
       const v = vm.type(C, 1) === T.NUMBER ? vm.toNumber(C, 1) : NaN;
-      if (v !== 2 && v !== 3) throw new LuaRaise("RESP version must be 2 or 3.", true);
+      if (v !== 2 && v !== 3) throw new LuaRaise("ERR RESP version must be 2 or 3.", true);
       if (this.current) this.current.resp = v;
       return 0;
     });
     vm.rawSetField(L, -2, "setresp");
     vm.pushFunction(L, (C) => {
-      if (vm.top(C) !== 1) throw new LuaRaise("redis.set_repl() requires one argument.", true);
+      if (vm.top(C) !== 1) throw new LuaRaise("ERR redis.set_repl() requires one argument.", true);
       const flags = vm.type(C, 1) === T.NUMBER ? vm.toNumber(C, 1) : NaN;
-      if (!(flags >= 0 && flags <= 3 && Number.isInteger(flags))) throw new LuaRaise("Invalid replication flags. Use REPL_AOF, REPL_REPLICA, REPL_ALL or REPL_NONE.", true);
+      if (!(flags >= 0 && flags <= 3 && Number.isInteger(flags))) throw new LuaRaise("ERR Invalid replication flags. Use REPL_AOF, REPL_REPLICA, REPL_ALL or REPL_NONE.", true);
       // There are no replicas and no AOF: every flag value is accepted and changes nothing.
       return 0;
     });
