@@ -40,6 +40,10 @@ export interface GeoJSONFeature {
   geometry: LinearGeometry;
   /** Foreign member written by `fit`/`elevate` (DESIGN.md, "Geometry contracts"). */
   curves?: FeatureCurves;
+  /** M (measure) values per part and vertex, from Shapefile input (positions hold x, y, Z only). */
+  measures?: number[][];
+  /** For SVG output's input layer: the geometry before the steps (not written by other formats). */
+  inputGeometry?: LinearGeometry;
   [member: string]: unknown;
 }
 

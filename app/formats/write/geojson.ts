@@ -1,14 +1,15 @@
 import type { OutputMeta, WriteResult } from "./meta";
 import { metadataDocument } from "./meta";
 import { FileSink } from "./file-sink";
-import { asFeature, segmentCount, vertexCount } from "./features";
+import { asFeature, outputMembers, rewindRfc7946, segmentCount, vertexCount } from "./features";
 import { normaliseCrsCode } from "../crs";
 
 /**
  * GeoJSON output (RFC 7946): one FeatureCollection, one Feature per input feature in order, with
  * `properties` as given, `geometry` the discretised curve and the foreign member `curves`
  * (DESIGN.md). The metadata goes in a foreign member `metadata` of the FeatureCollection
- * (RFC 7946 §6.1 allows foreign members). Coordinates in a CRS other than WGS 84 also get the
+ * (RFC 7946 §6.1 allows foreign members). Polygon rings are rewound to RFC 7946 §3.1.6's
+ * winding (exterior counter-clockwise) together with their curves. Coordinates in a CRS other than WGS 84 also get the
  * GeoJSON 2008 `crs` member, which RFC 7946 §4 leaves to prior arrangement between the parties:
  * such a file is not RFC 7946 GeoJSON, and its metadata says so.
  */
@@ -29,16 +30,10 @@ export async function writeGeoJSON(features: AsyncIterable<object>, path: string
     }
     await sink.write(head + '"features":[');
     for await (const value of features) {
-      const f = asFeature(value, count);
-      const { type: _t, id, properties, geometry, curves, ...rest } = f;
+      const f = rewindRfc7946(asFeature(value, count));
+      const { geometry, curves } = f;
       // Members in a stable order; `properties` null when absent (RFC 7946 §3.2 requires the member).
-      const out: Record<string, unknown> = { type: "Feature" };
-      if (id !== undefined) out.id = id;
-      out.properties = properties ?? null;
-      out.geometry = geometry;
-      if (curves !== undefined) out.curves = curves;
-      Object.assign(out, rest);
-      await sink.write((count === 0 ? "\n" : ",\n") + JSON.stringify(out));
+      await sink.write((count === 0 ? "\n" : ",\n") + JSON.stringify(outputMembers(f)));
       count++;
       vertices += vertexCount(geometry);
       segments += segmentCount(curves);
@@ -60,15 +55,9 @@ export async function writeNdjson(features: AsyncIterable<object>, path: string)
   let segments = 0;
   try {
     for await (const value of features) {
-      const f = asFeature(value, count);
-      const { type: _t, id, properties, geometry, curves, ...rest } = f;
-      const out: Record<string, unknown> = { type: "Feature" };
-      if (id !== undefined) out.id = id;
-      out.properties = properties ?? null;
-      out.geometry = geometry;
-      if (curves !== undefined) out.curves = curves;
-      Object.assign(out, rest);
-      await sink.write(JSON.stringify(out) + "\n");
+      const f = rewindRfc7946(asFeature(value, count));
+      const { geometry, curves } = f;
+      await sink.write(JSON.stringify(outputMembers(f)) + "\n");
       count++;
       vertices += vertexCount(geometry);
       segments += segmentCount(curves);

@@ -4,6 +4,9 @@ import { writeAtomically } from "./file-sink";
 import { writeGeoJSON, writeNdjson } from "./geojson";
 import { metadataDocument, type OutputMeta, type WriteResult } from "./meta";
 import { writeShapefileZip } from "../shapefile/write";
+import { writeCsv } from "./csv";
+import { writeGml } from "./gml";
+import { writeSvg } from "./svg";
 
 export const OUTPUT_MEDIA_TYPES: Record<OutputFormat, string> = {
   geojson: "application/geo+json",
@@ -53,8 +56,20 @@ export async function writeOutput(format: OutputFormat, features: AsyncIterable<
     }
     case "shapefile":
       return writeAtomically([destPath], async ([tmp]) => ({ format, mediaType, files: [destPath], ...(await writeShapefileZip(features, tmp!, meta, destPath)) }));
+    case "gml":
+      return writeAtomically([destPath], async ([tmp]) => ({ format, mediaType, files: [destPath], ...(await writeGml(features, tmp!, meta)) }));
+    case "svg":
+      return writeAtomically([destPath], async ([tmp]) => ({ format, mediaType, files: [destPath], ...(await writeSvg(features, tmp!, meta)) }));
+    case "csv": {
+      const sidecar = sidecarPath(destPath);
+      return writeAtomically([destPath, sidecar], async ([tmp, tmpMeta]) => {
+        const r = await writeCsv(features, tmp!);
+        await writeFile(tmpMeta!, JSON.stringify(metadataDocument(meta, format, r.notes), null, 2) + "\n");
+        return { format, mediaType, files: [destPath, sidecar], ...r };
+      });
+    }
     default:
-      throw new Error(`writing ${format} output is not available in this build yet; choose geojson or ndjson`);
+      throw new Error(`unknown output format ${String(format)}`);
   }
 }
 
