@@ -34,14 +34,14 @@ export function queueBackend(): "embedded" | "redis" {
 export function createRedisConnection(opts: { url?: string } = {}): Redis {
   const url = redisUrl(opts.url);
   if (url) return new Redis(url, { maxRetriesPerRequest: null });
-  return createFakeRedis() as unknown as Redis;
+  return createFakeRedis();
 }
 
 /** A connection for Queue objects used from web requests: fails fast while Redis is down. */
 export function createQueueConnectionForWeb(opts: { url?: string } = {}): Redis {
   const url = redisUrl(opts.url);
   if (url) return new Redis(url, { maxRetriesPerRequest: 1, enableOfflineQueue: false });
-  return createFakeRedis() as unknown as Redis;
+  return createFakeRedis();
 }
 
 /** Empties the embedded in-memory Redis (no effect on a real Redis). */

@@ -9,6 +9,7 @@
  * Not covered yet: see the lists in fake-redis.ts, script-runner.ts, prelude.ts, cjson.ts,
  * cmsgpack.ts and streams.ts.
  */
+import type { Redis } from "ioredis";
 import { FakeRedis, type FakeRedisOptions } from "./fake-redis";
 
 export { FakeRedis, scriptRunner, type FakeRedisOptions } from "./fake-redis";
@@ -17,13 +18,18 @@ export { EMULATED_REDIS_VERSION, LOG_LEVELS, type ScriptLogSink } from "./script
 /** The host name that keys the embedded data space (ioredis-mock shares data per host:port/db). */
 const EMBEDDED_HOST = "lissom-embedded";
 
-export function createFakeRedis(options: FakeRedisOptions = {}): FakeRedis {
+function embedded(options: FakeRedisOptions = {}): FakeRedis {
   return new FakeRedis({ ...options, host: EMBEDDED_HOST, port: 6379, db: 0 });
+}
+
+/** A connection to the embedded data space, typed as the ioredis client it stands in for. */
+export function createFakeRedis(options: FakeRedisOptions = {}): Redis {
+  return embedded(options) as unknown as Redis;
 }
 
 /** Empties the embedded data space; connections stay open and scripts stay loaded. */
 export function resetFakeRedis(): void {
-  const probe = createFakeRedis({ lazyConnect: true });
+  const probe = embedded({ lazyConnect: true });
   probe.data.clear();
   probe.expires.clear();
   probe.disconnect();

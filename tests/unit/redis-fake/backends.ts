@@ -12,7 +12,7 @@ export interface Backend {
 }
 
 export function backends(): Backend[] {
-  const list: Backend[] = [{ name: "fake", connect: () => createFakeRedis() as unknown as Redis }];
+  const list: Backend[] = [{ name: "fake", connect: () => createFakeRedis() }];
   const url = process.env.REDIS_URL;
   if (url) list.push({ name: "redis-server", connect: () => new Redis(url) });
   return list;
@@ -31,4 +31,9 @@ export async function deleteKeys(client: Redis, prefix: string): Promise<void> {
     cursor = next;
     if (keys.length) await client.del(...keys);
   } while (cursor !== "0");
+}
+
+/** EVAL with Buffer replies (ioredis has `evalBuffer` at run time but not in its types). */
+export function evalBuffer(client: Redis, script: string, numKeys: number, ...args: (string | number | Buffer)[]): Promise<unknown> {
+  return (client as unknown as { evalBuffer(...a: unknown[]): Promise<unknown> }).evalBuffer(script, numKeys, ...args);
 }

@@ -10,7 +10,7 @@
 import { pack as mpPack, Packr, unpack as mpUnpack } from "msgpackr";
 import type { Redis } from "ioredis";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { backends } from "./backends";
+import { backends, evalBuffer } from "./backends";
 
 // BullMQ packs its script arguments with these msgpackr options.
 const bullmqPackr = new Packr({ useRecords: false, encodeUndefinedAsNil: true });
@@ -25,7 +25,7 @@ describe.each(backends())("script libraries on $name", ({ connect }) => {
   });
 
   const ev = (script: string, ...args: (string | number | Buffer)[]) => r.eval(script, 0, ...args);
-  const evBuf = (script: string, ...args: (string | number | Buffer)[]) => r.evalBuffer(script, 0, ...args) as Promise<Buffer>;
+  const evBuf = (script: string, ...args: (string | number | Buffer)[]) => evalBuffer(r, script, 0, ...args) as Promise<Buffer>;
   const hex = async (script: string, ...args: (string | number | Buffer)[]) => (await evBuf(script, ...args)).toString("hex");
 
   describe("cmsgpack", () => {

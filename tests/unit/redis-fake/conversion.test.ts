@@ -11,7 +11,7 @@ import type { Redis } from "ioredis";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { scriptRunner } from "../../../jobs/redis-fake";
 import { LOG_LEVELS } from "../../../jobs/redis-fake";
-import { backends, deleteKeys, runPrefix } from "./backends";
+import { backends, deleteKeys, evalBuffer, runPrefix } from "./backends";
 
 const P = runPrefix("conversion");
 
@@ -158,12 +158,12 @@ describe.each(backends())("script conversions on $name", ({ connect }) => {
 
     it("hands KEYS and ARGV over byte for byte, invalid UTF-8 included", async () => {
       const bytes = Buffer.from([0xff, 0x00, 0xc1, 0x80, 0x41, 0xe2, 0x82]);
-      const reply = await r.evalBuffer("return {#ARGV[1], ARGV[1], KEYS[1]}", 1, `${P}k\u00e9`, bytes);
+      const reply = await evalBuffer(r, "return {#ARGV[1], ARGV[1], KEYS[1]}", 1, `${P}k\u00e9`, bytes);
       expect(reply).toEqual([7, bytes, Buffer.from(`${P}k\u00e9`)]);
       const k = `${P}bin`;
-      await r.evalBuffer("return redis.call('SET', KEYS[1], ARGV[1])", 1, k, bytes);
+      await evalBuffer(r, "return redis.call('SET', KEYS[1], ARGV[1])", 1, k, bytes);
       expect(await r.getBuffer(k)).toEqual(bytes);
-      expect(await r.evalBuffer("return redis.call('GET', KEYS[1])", 1, k)).toEqual(bytes);
+      expect(await evalBuffer(r, "return redis.call('GET', KEYS[1])", 1, k)).toEqual(bytes);
     });
   });
 
