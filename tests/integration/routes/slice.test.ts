@@ -93,7 +93,10 @@ describe("the slice through the API: upload, fit, status, results, download", ()
     const hidden = await call(downloadLoader as never, { request: request(href, { cookie: cookies.consumer }), params: { outputId } });
     expect(hidden.status).toBe(404);
     const { publishOutput } = await import("../../../app/.server/outputs.server");
-    await publishOutput(outputId, "x", true);
+    const { db, schema } = await import("../../../app/.server/db/client.server");
+    const { eq } = await import("drizzle-orm");
+    const engineer = await db().query.user.findFirst({ where: eq(schema.user.email, "engineer@example.com") });
+    await publishOutput(outputId, engineer!.id, true);
     const shown = await call(downloadLoader as never, { request: request(href, { cookie: cookies.consumer }), params: { outputId } });
     expect(shown.status).toBe(200);
   });
