@@ -96,7 +96,7 @@ function disagree(file: InputFile, expected: string, found: Sniffed, hint?: stri
  * set (.shp with its .shx/.dbf/.prj/.cpg). Refuses uploads over the size limit, mixed uploads,
  * unknown extensions and files whose name and content disagree.
  */
-export async function detectInput(files: InputFile[], opts: { inArchive?: string; onIgnored?: (file: InputFile) => void } = {}): Promise<DetectedInput> {
+export async function detectInput(files: InputFile[], opts: { inArchive?: string; onIgnored?: (file: InputFile) => void; maxUploadBytes?: number } = {}): Promise<DetectedInput> {
   if (files.length === 0) throw new DatasetInputError({ file: "(upload)", reason: "no file was given", hint: "Choose a GeoJSON file, a zipped Shapefile or the .shp/.shx/.dbf/.prj files" });
   if (opts.inArchive) {
     // Inside an archive: unpacked sizes were capped while unpacking; unknown files are ignored.
@@ -119,10 +119,12 @@ export async function detectInput(files: InputFile[], opts: { inArchive?: string
   }
   for (const f of opts.inArchive ? [] : files) {
     const { size } = await stat(f.path);
-    if (size > MAX_UPLOAD_BYTES) {
+    const limit = opts.maxUploadBytes ?? MAX_UPLOAD_BYTES;
+    if (size > limit) {
       throw new DatasetInputError({
         file: f.name,
-        reason: `the file is ${formatBytes(size)}, over the upload limit of ${formatBytes(MAX_UPLOAD_BYTES)}`,
+        offset: limit,
+        reason: `the file is ${formatBytes(size)}, over the upload limit of ${formatBytes(limit)}`,
         hint: "Split the dataset into smaller files, or ask an administrator to raise LISSOM_MAX_UPLOAD_MB",
       });
     }

@@ -4,6 +4,7 @@ import type { ReaderSink } from "./gate";
 import { readGeoJSON, readJsonLines } from "./geojson/read";
 import { readShapefile } from "./shapefile/read";
 import { unpackZip } from "./zip";
+import { MAX_COMPRESSION_RATIO, MAX_UNPACKED_FACTOR, MAX_UPLOAD_BYTES, MAX_ZIP_ENTRIES } from "./limits";
 import { SummaryBuilder } from "./summary";
 import type { CrsSummary, DatasetSummary, DatasetWarning, FeatureItem, InputFile, InputFormat, ReadOptions } from "./types";
 
@@ -14,14 +15,15 @@ interface Opened {
 }
 
 async function openInput(files: InputFile[], options: ReadOptions): Promise<Opened> {
-  const input = await detectInput(files);
+  const input = await detectInput(files, { maxUploadBytes: options.maxUploadBytes });
   const names = files.map((f) => f.name);
   if (input.kind === "zip") {
     const opened: Opened = {
       format: "shapefile",
       names,
       features: async function* (sink) {
-        const unpacked = await unpackZip(input.file);
+        const maxUpload = options.maxUploadBytes ?? MAX_UPLOAD_BYTES;
+        const unpacked = await unpackZip(input.file, { maxUnpacked: MAX_UNPACKED_FACTOR * maxUpload, maxRatio: MAX_COMPRESSION_RATIO, maxEntries: MAX_ZIP_ENTRIES });
         try {
           const ignored: string[] = [];
           const inner = await detectInput(unpacked.files, { inArchive: input.file.name, onIgnored: (f) => ignored.push(f.name.split("/").pop()!) });

@@ -110,6 +110,8 @@ export interface InputFile {
 export interface ReadOptions {
   /** The CRS to assume (e.g. `EPSG:27700`); it overrides what the file declares, with a note. */
   crs?: string;
+  /** Largest accepted file, in bytes; default `MAX_UPLOAD_BYTES`. */
+  maxUploadBytes?: number;
   /** Told about every skipped or repaired feature while reading. */
   onWarning?: (warning: DatasetWarning) => void;
 }

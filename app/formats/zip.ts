@@ -45,7 +45,9 @@ export async function unpackZip(file: InputFile, limits = { maxUnpacked: MAX_UNP
   try {
     zip = await yauzl.openPromise(file.path, { lazyEntries: true, decodeStrings: false, validateEntrySizes: true, autoClose: false });
   } catch (e) {
-    return refuse(`the zip archive cannot be opened (${(e as Error).message})`, "The archive is damaged or truncated; create and upload it again");
+    const message = (e as Error).message;
+    const why = /end of central directory/i.test(message) ? "its central directory (at the end of the archive) is missing" : message.replace(/\.$/, "");
+    return refuse(`the zip archive cannot be opened: ${why}`, "The archive is damaged or truncated; create and upload it again");
   }
   const dir = await mkdtemp(join(tmpdir(), "lissom-unzip-"));
   const dispose = async () => {

@@ -113,7 +113,7 @@ export async function writeSvg(features: AsyncIterable<object>, path: string, me
       `<?xml version="1.0" encoding="UTF-8"?>\n` +
         `<svg xmlns="http://www.w3.org/2000/svg" viewBox="${viewBox.map(fmt).join(" ")}" data-origin="${fmt(o[0])} ${fmt(o[1])}" data-crs="${xmlEscape(String(doc.crs))}">\n` +
         `<title>${xmlEscape(meta.title ?? "Lissom output")}</title>\n` +
-        `<metadata id="lissom-metadata">${xmlEscape(JSON.stringify(doc))}</metadata>\n` +
+        `<metadata id="lissom-metadata">${JSON.stringify(doc).replace(/[<>&]/g, (c) => ({ "<": "&lt;", ">": "&gt;", "&": "&amp;" })[c]!)}</metadata>\n` +
         `<g id="input" fill="none" stroke="#9a9a9a" stroke-width="1" vector-effect="non-scaling-stroke">\n`,
     );
     for await (const chunk of createReadStream(inputPath)) await out.write(chunk as Buffer);
