@@ -2,12 +2,20 @@ import { isRouteErrorResponse, Links, Meta, Outlet, Scripts, ScrollRestoration }
 import type { Route } from "./+types/root";
 import "./app.css";
 
+// Lissom's mark, inline so no extra request: one smooth stroke on a teal tile.
+const FAVICON =
+  "data:image/svg+xml," +
+  encodeURIComponent(
+    '<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 32 32"><rect width="32" height="32" rx="7" fill="#17676a"/><path d="M6 22C11 6 19 26 26 10" fill="none" stroke="#f7f5f0" stroke-width="3.2" stroke-linecap="round"/></svg>',
+  );
+
 export function Layout({ children }: { children: React.ReactNode }) {
   return (
     <html lang="en">
       <head>
         <meta charSet="utf-8" />
         <meta name="viewport" content="width=device-width, initial-scale=1" />
+        <link rel="icon" href={FAVICON} />
         <Meta />
         <Links />
       </head>

@@ -179,7 +179,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
           featuresTotal: done,
           finishedAt: finished,
           updatedAt: finished,
-          message: `${done} features: ${counts}`,
+          message: `${plural(done, "feature")}: ${counts}`,
         })
         .where(and(eq(schema.jobs.id, jobId), sql`${schema.jobs.status} != 'dismissed'`));
     });
@@ -193,7 +193,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
     if (oldDir !== relative) await removeStored(oldDir);
   }
   await ctx.onProgress?.(100);
-  await log.info(`Finished: ${done} features (${counts}); output ${fileName}.`);
+  await log.info(`Finished: ${plural(done, "feature")} (${counts}); output ${fileName}.`);
   return "successful";
 }
 
@@ -201,6 +201,10 @@ function countStatuses(reports: FeatureReport[]): string {
   const counts = new Map<string, number>();
   for (const r of reports) counts.set(r.status, (counts.get(r.status) ?? 0) + 1);
   return [...counts].map(([k, v]) => `${v} ${k}`).join(", ") || "none";
+}
+
+function plural(n: number, word: string): string {
+  return `${n.toLocaleString("en-GB")} ${word}${n === 1 ? "" : "s"}`;
 }
 
 function finiteOr(value: number): number {

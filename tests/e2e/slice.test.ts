@@ -41,17 +41,20 @@ describe("the first slice, in a browser", () => {
     const context = await browser.newContext({ acceptDownloads: true });
     const page = await context.newPage();
     const consoleErrors: string[] = [];
-    page.on("console", (m) => m.type() === "error" && consoleErrors.push(m.text()));
+    page.on("console", (m) => m.type() === "error" && consoleErrors.push(`${m.text()} at ${m.location().url}`));
+    page.on("response", (r) => r.status() >= 400 && consoleErrors.push(`HTTP ${r.status()} ${r.url()}`));
 
     await signIn(page, "engineer@example.com");
     await expect(page.getByTestId("role").textContent()).resolves.toBe("engineer");
+    await page.screenshot({ path: "tests/e2e/.artifacts/jobs.png", fullPage: true });
 
     await page.goto(`${server.url}/datasets`);
     await page.locator('input[name="file"]').setInputFiles(sampleFile());
     await page.locator('input[name="name"]').fill("e2e river");
     await page.getByRole("button", { name: "Upload" }).click();
     await page.waitForURL(/\/datasets\/[\w-]+$/);
-    await expect(page.getByRole("heading", { name: "e2e river" }).isVisible()).resolves.toBe(true);
+    await page.screenshot({ path: "tests/e2e/.artifacts/dataset.png", fullPage: true });
+    await page.getByRole("heading", { name: "e2e river" }).waitFor();
 
     await page.locator('input[name="tolerance"]').fill("5");
     await page.getByRole("button", { name: "Run fit" }).click();
@@ -74,7 +77,8 @@ describe("the first slice, in a browser", () => {
 
     await page.getByRole("button", { name: "Publish" }).click();
     await page.getByText("Output published").waitFor();
-    expect(consoleErrors).toEqual([]);
+    await page.screenshot({ path: "tests/e2e/.artifacts/job.png", fullPage: true });
+    expect(consoleErrors.join("\n")).toBe("");
     await context.close();
 
     const consumer = await browser.newContext({ acceptDownloads: true });
@@ -82,6 +86,7 @@ describe("the first slice, in a browser", () => {
     await signIn(cpage, "consumer@example.com");
     expect(new URL(cpage.url()).pathname).toBe("/library");
     await cpage.getByText("e2e river").waitFor();
+    await cpage.screenshot({ path: "tests/e2e/.artifacts/library.png", fullPage: true });
     const [cdownload] = await Promise.all([cpage.waitForEvent("download"), cpage.getByRole("link", { name: "Download" }).first().click()]);
     expect(JSON.parse(readFileSync((await cdownload.path())!, "utf8")).features.length).toBe(geojson.features.length);
 
