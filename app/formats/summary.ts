@@ -133,7 +133,7 @@ function attributeType(v: unknown): string {
  * corners and curvature from dominating, but densely sampled tight curves still add their
  * sagitta, and coarse sampling with spacing near σ tilts the chords: the figure is an estimate
  * to start from, not a measurement. The suggested tolerance is 3σ (a three-sigma band, common
- * practice) rounded up to 1, 2 or 5 times a power of ten.
+ * practice) rounded up to one significant digit.
  *
  * The distances go into a log-spaced histogram (20 bins per decade from 1 µm to 1000 km), so
  * memory does not grow with the input. Lines are sampled at most `MAX_TRIPLES_PER_PART` times.
@@ -209,12 +209,9 @@ function roundSignificant(v: number, digits: number): number {
   return Number(v.toPrecision(digits));
 }
 
-/** The smallest of 1, 2, 5 × 10^k not below v. */
+/** v rounded up to one significant digit (6.09 → 7, 0.0123 → 0.02). */
 export function niceCeil(v: number): number {
   const e = Math.floor(Math.log10(v));
-  for (const m of [1, 2, 5, 10]) {
-    const c = m * 10 ** e;
-    if (c >= v * (1 - 1e-12)) return Number(c.toPrecision(6));
-  }
-  return 10 ** (e + 1);
+  const unit = 10 ** e;
+  return Number((Math.ceil(v / unit - 1e-9) * unit).toPrecision(6));
 }

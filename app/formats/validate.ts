@@ -7,7 +7,7 @@ import type { GeoJSONFeature, LinearGeometry, Position } from "./types";
  * - refused (throws `DatasetInputError`): a member of `features` that is no Feature, an unknown
  *   geometry type, wrong coordinate nesting, coordinates that are not finite numbers,
  *   longitude/latitude outside WGS 84's range (a sign of a projected file without a CRS),
- *   points and geometry collections, and line features mixed with area features;
+ *   points (alone, or mixed with lines: "mixed geometry types") and geometry collections;
  * - skipped (a warning): no geometry (null is allowed by RFC 7946 §3.2), empty coordinates, and
  *   features whose every part is degenerate (a line with fewer than two distinct vertices, a
  *   ring with fewer than three);
@@ -52,6 +52,12 @@ export function checkFeature(raw: unknown, index: number, ctx: CheckContext): Ch
   const geom = geometry as Record<string, unknown>;
   const type = geom.type;
   if (type === "Point" || type === "MultiPoint") {
+    if (ctx.family) {
+      refuse(
+        `mixed geometry types: this ${type} follows ${ctx.family.type} features (first at feature ${ctx.family.feature}); Lissom works on lines and area boundaries, not points`,
+        "Remove the point features or move them to a separate file",
+      );
+    }
     refuse(`${type} geometry: Lissom works on lines and area boundaries, not points`, "Remove the point features or move them to a separate file");
   }
   if (type === "GeometryCollection") {
@@ -60,13 +66,8 @@ export function checkFeature(raw: unknown, index: number, ctx: CheckContext): Ch
   if (typeof type !== "string" || (!LINE_TYPES.has(type) && !AREA_TYPES.has(type))) {
     refuse(`unknown geometry type ${JSON.stringify(type) ?? "(missing)"}`, "Use LineString, MultiLineString, Polygon or MultiPolygon (RFC 7946 §3.1)");
   }
+  // Lines and areas may share a dataset (a Shapefile output then holds one layer of each).
   const kind = LINE_TYPES.has(type as string) ? "line" : "area";
-  if (ctx.family && ctx.family.kind !== kind) {
-    refuse(
-      `mixed geometry types: this ${type} follows ${ctx.family.type} features (first at feature ${ctx.family.feature})`,
-      "Split lines and polygons into separate files and upload each as its own dataset",
-    );
-  }
   const coords = geom.coordinates;
   if (!Array.isArray(coords)) {
     refuse(`${type} has ${coords === undefined ? "no \"coordinates\" member" : `"coordinates" ${describeValue(coords)}`}`, "Give the geometry a coordinates array (RFC 7946 §3.1)");

@@ -1,11 +1,10 @@
-import { createWriteStream } from "node:fs";
+import { createReadStream, createWriteStream } from "node:fs";
 import { mkdtemp, rm, stat, writeFile } from "node:fs/promises";
 import { basename, dirname, join } from "node:path";
 import { createInterface } from "node:readline";
-import { createReadStream } from "node:fs";
 import yazl from "yazl";
 import { normaliseCrsCode, wktFor } from "../crs";
-import type { LinearGeometry, Position } from "../types";
+import type { GeoJSONFeature, LinearGeometry, Position } from "../types";
 import { asFeature, familyOf, vertexCount } from "../write/features";
 import { FileSink } from "../write/file-sink";
 import { metadataDocument, type OutputMeta, type WriteResult } from "../write/meta";
@@ -22,7 +21,8 @@ import { M_NO_DATA, signedArea } from "./records";
  * `shapefile` package (tests/unit/formats/shapefile.test.ts). The archive is made with `yazl`.
  *
  * Geometry: lines become PolyLine, areas Polygon (outer rings clockwise, holes
- * counter-clockwise, as the Technical Description requires); Z when the first feature has Z;
+ * counter-clockwise, as the Technical Description requires); a dataset with both gets two
+ * Shapefiles in the archive, `<name>_lines` and `<name>_areas`. Z when the first feature has Z;
  * M when the first feature carries `measures` that match its vertices. Attributes: booleans as
  * L, integers and reals as N, text and anything else (JSON for objects) as C; names cut to ten
  * characters and made unique (the mapping is in the metadata); text longer than 254 bytes is
@@ -31,92 +31,51 @@ import { M_NO_DATA, signedArea } from "./records";
 export async function writeShapefileZip(features: AsyncIterable<object>, zipPath: string, meta: OutputMeta, finalName: string): Promise<Omit<WriteResult, "files" | "format" | "mediaType">> {
   const stem = basename(finalName).replace(/\.zip$/i, "") || "output";
   const work = await mkdtemp(join(dirname(zipPath), ".lissom-shp-"));
+  const layers = new Map<"line" | "area", ShapefileLayer>();
   try {
-    const shpPath = join(work, `${stem}.shp`);
-    const shxPath = join(work, `${stem}.shx`);
-    const dbfPath = join(work, `${stem}.dbf`);
-    const attrPath = join(work, "attributes.ndjson");
-    const shp = await FileSink.create(shpPath);
-    const shx = await FileSink.create(shxPath);
-    const attrs = await FileSink.create(attrPath);
     const notes: string[] = [];
-    const schema = new SchemaBuilder();
-    let shapeType = 0;
-    let withZ = false;
-    let withM = false;
-    let family: "line" | "area" | null = null;
     let count = 0;
     let vertices = 0;
-    let offsetWords = 50;
-    let mismatchedMeasures = 0;
-    const box = { xmin: Infinity, ymin: Infinity, xmax: -Infinity, ymax: -Infinity, zmin: Infinity, zmax: -Infinity, mmin: Infinity, mmax: -Infinity };
     try {
-      await shp.write(new Uint8Array(100));
-      await shx.write(new Uint8Array(100));
       for await (const value of features) {
         const f = asFeature(value, count);
-        const fam = familyOf(f.geometry);
-        if (!family) {
-          family = fam;
-          withZ = partsOfRecord(f.geometry).some((p) => p.some((q) => q.length > 2));
-          withM = measuresMatch(f.geometry, f.measures);
-          shapeType = (fam === "line" ? 3 : 5) + (withZ ? 10 : withM ? 20 : 0);
-        } else if (fam !== family) {
-          throw new Error(`Shapefile output holds one geometry type: feature ${count} is ${f.geometry.type} after ${family === "line" ? "lines" : "polygons"}`);
+        const family = familyOf(f.geometry);
+        let layer = layers.get(family);
+        if (!layer) {
+          layer = await ShapefileLayer.open(join(work, family), family);
+          layers.set(family, layer);
         }
-        const parts = partsOfRecord(f.geometry);
-        let measures = withM && measuresMatch(f.geometry, f.measures) ? (f.measures as number[][]).map((m) => m.slice()) : null;
-        if (withM && !measures) mismatchedMeasures++;
-        if (family === "area") orientRings(f.geometry, parts, measures);
-        const content = encodeRecord(shapeType, parts, withZ, withM, measures, box);
-        const header = Buffer.alloc(8);
-        header.writeInt32BE(count + 1, 0);
-        header.writeInt32BE(content.length / 2, 4);
-        await shp.write(header);
-        await shp.write(content);
-        const idx = Buffer.alloc(8);
-        idx.writeInt32BE(offsetWords, 0);
-        idx.writeInt32BE(content.length / 2, 4);
-        await shx.write(idx);
-        offsetWords += 4 + content.length / 2;
-        const props = f.properties ?? {};
-        schema.add(props);
-        await attrs.write(JSON.stringify(props) + "\n");
+        await layer.add(f);
         count++;
         vertices += vertexCount(f.geometry);
       }
       if (count === 0) throw new Error("Shapefile output needs at least one feature");
-      const head = Buffer.alloc(100);
-      writeMainHeader(head, shapeType, offsetWords, box, withZ, withM);
-      await shp.writeAt(head, 0);
-      writeMainHeader(head, shapeType, 50 + count * 4, box, withZ, withM);
-      await shx.writeAt(head, 0);
-      await shp.close();
-      await shx.close();
-      await attrs.close();
+      for (const layer of layers.values()) await layer.finish(notes);
     } catch (error) {
-      await Promise.all([shp.abandon(), shx.abandon(), attrs.abandon()]);
+      for (const layer of layers.values()) await layer.abandon();
       throw error;
     }
-    if (mismatchedMeasures) notes.push(`${mismatchedMeasures} features had no M values matching their vertices; their M is written as "no data"`);
-    const fields = schema.fields(notes);
-    await writeDbf(dbfPath, attrPath, fields, count, notes);
-    await rm(attrPath);
+    // One geometry family: <stem>.shp etc.; both: <stem>_lines.* and <stem>_areas.* (a Shapefile holds one shape type).
     const crs = normaliseCrsCode(meta.crs ?? "EPSG:4326");
     const wkt = meta.crsWkt ?? wktFor(crs);
-    const entries = [`${stem}.shp`, `${stem}.shx`, `${stem}.dbf`, `${stem}.cpg`];
-    await writeFile(join(work, `${stem}.cpg`), "UTF-8");
-    if (wkt) {
-      await writeFile(join(work, `${stem}.prj`), wkt);
-      entries.push(`${stem}.prj`);
-    } else {
-      notes.push(`no .prj written: no WKT is known for ${crs}`);
+    if (!wkt) notes.push(`no .prj written: no WKT is known for ${crs}`);
+    if (layers.size > 1) notes.push("lines and polygons are in separate Shapefiles (_lines and _areas): a Shapefile holds one shape type");
+    await writeFile(join(work, "cpg"), "UTF-8");
+    if (wkt) await writeFile(join(work, "prj"), wkt);
+    const entries: { path: string; name: string }[] = [];
+    const fieldMaps: Record<string, Record<string, string>> = {};
+    for (const [family, layer] of layers) {
+      const name = layers.size > 1 ? `${stem}_${family === "line" ? "lines" : "areas"}` : stem;
+      for (const ext of ["shp", "shx", "dbf"]) entries.push({ path: join(work, `${family}.${ext}`), name: `${name}.${ext}` });
+      entries.push({ path: join(work, "cpg"), name: `${name}.cpg` });
+      if (wkt) entries.push({ path: join(work, "prj"), name: `${name}.prj` });
+      const map = layer.fieldMap();
+      if (Object.keys(map).length) fieldMaps[`${name}.dbf`] = map;
     }
-    const fieldMap = Object.fromEntries(fields.filter((f) => f.source !== f.name).map((f) => [f.source, f.name]));
     const doc = metadataDocument(meta, "shapefile", notes);
-    await writeFile(join(work, `${stem}.metadata.json`), JSON.stringify({ ...doc, ...(Object.keys(fieldMap).length ? { dbfFieldNames: fieldMap } : {}) }, null, 2) + "\n");
-    entries.push(`${stem}.metadata.json`);
-    await zipFiles(work, entries, zipPath);
+    await writeFile(join(work, "metadata.json"), JSON.stringify({ ...doc, ...(Object.keys(fieldMaps).length ? { dbfFieldNames: fieldMaps } : {}) }, null, 2) + "\n");
+    entries.push({ path: join(work, "metadata.json"), name: `${stem}.metadata.json` });
+    await zipFiles(entries, zipPath);
     const { size } = await stat(zipPath);
     return { features: count, vertices, segments: 0, bytes: size, notes };
   } finally {
@@ -124,9 +83,89 @@ export async function writeShapefileZip(features: AsyncIterable<object>, zipPath
   }
 }
 
-async function zipFiles(dir: string, names: string[], zipPath: string): Promise<void> {
+type Box = { xmin: number; ymin: number; xmax: number; ymax: number; zmin: number; zmax: number; mmin: number; mmax: number };
+
+/** One .shp/.shx/.dbf triple of one geometry family, written as features arrive. */
+class ShapefileLayer {
+  private schema = new SchemaBuilder();
+  private shapeType = 0;
+  private withZ = false;
+  private withM = false;
+  private count = 0;
+  private offsetWords = 50;
+  private mismatchedMeasures = 0;
+  private fields: DbfFieldDef[] = [];
+  private box: Box = { xmin: Infinity, ymin: Infinity, xmax: -Infinity, ymax: -Infinity, zmin: Infinity, zmax: -Infinity, mmin: Infinity, mmax: -Infinity };
+
+  private constructor(
+    private base: string,
+    private family: "line" | "area",
+    private shp: FileSink,
+    private shx: FileSink,
+    private attrs: FileSink,
+  ) {}
+
+  static async open(base: string, family: "line" | "area"): Promise<ShapefileLayer> {
+    const layer = new ShapefileLayer(base, family, await FileSink.create(`${base}.shp`), await FileSink.create(`${base}.shx`), await FileSink.create(`${base}.attributes.ndjson`));
+    await layer.shp.write(new Uint8Array(100));
+    await layer.shx.write(new Uint8Array(100));
+    return layer;
+  }
+
+  async add(f: GeoJSONFeature): Promise<void> {
+    if (this.count === 0) {
+      this.withZ = partsOfRecord(f.geometry).some((p) => p.some((q) => q.length > 2));
+      this.withM = measuresMatch(f.geometry, f.measures);
+      this.shapeType = (this.family === "line" ? 3 : 5) + (this.withZ ? 10 : this.withM ? 20 : 0);
+    }
+    const parts = partsOfRecord(f.geometry);
+    const measures = this.withM && measuresMatch(f.geometry, f.measures) ? (f.measures as number[][]).map((m) => m.slice()) : null;
+    if (this.withM && !measures) this.mismatchedMeasures++;
+    if (this.family === "area") orientRings(f.geometry, parts, measures);
+    const content = encodeRecord(this.shapeType, parts, this.withZ, this.withM, measures, this.box);
+    const header = Buffer.alloc(8);
+    header.writeInt32BE(this.count + 1, 0);
+    header.writeInt32BE(content.length / 2, 4);
+    await this.shp.write(header);
+    await this.shp.write(content);
+    const idx = Buffer.alloc(8);
+    idx.writeInt32BE(this.offsetWords, 0);
+    idx.writeInt32BE(content.length / 2, 4);
+    await this.shx.write(idx);
+    this.offsetWords += 4 + content.length / 2;
+    const props = f.properties ?? {};
+    this.schema.add(props);
+    await this.attrs.write(JSON.stringify(props) + "\n");
+    this.count++;
+  }
+
+  async finish(notes: string[]): Promise<void> {
+    const head = Buffer.alloc(100);
+    writeMainHeader(head, this.shapeType, this.offsetWords, this.box, this.withZ, this.withM);
+    await this.shp.writeAt(head, 0);
+    writeMainHeader(head, this.shapeType, 50 + this.count * 4, this.box, this.withZ, this.withM);
+    await this.shx.writeAt(head, 0);
+    await this.shp.close();
+    await this.shx.close();
+    await this.attrs.close();
+    if (this.mismatchedMeasures) notes.push(`${this.mismatchedMeasures} features had no M values matching their vertices; their M is written as "no data"`);
+    this.fields = this.schema.fields(notes);
+    await writeDbf(`${this.base}.dbf`, `${this.base}.attributes.ndjson`, this.fields, this.count, notes);
+    await rm(`${this.base}.attributes.ndjson`);
+  }
+
+  fieldMap(): Record<string, string> {
+    return Object.fromEntries(this.fields.filter((f) => f.source !== "" && f.source !== f.name).map((f) => [f.source, f.name]));
+  }
+
+  async abandon(): Promise<void> {
+    await Promise.all([this.shp.abandon(), this.shx.abandon(), this.attrs.abandon()]);
+  }
+}
+
+async function zipFiles(entries: { path: string; name: string }[], zipPath: string): Promise<void> {
   const zip = new yazl.ZipFile();
-  for (const name of names) zip.addFile(join(dir, name), name, { compress: true });
+  for (const e of entries) zip.addFile(e.path, e.name, { compress: true });
   zip.end();
   await new Promise<void>((resolve, reject) => {
     const out = createWriteStream(zipPath);
@@ -173,7 +212,7 @@ function encodeRecord(
   withZ: boolean,
   withM: boolean,
   measures: number[][] | null,
-  box: { xmin: number; ymin: number; xmax: number; ymax: number; zmin: number; zmax: number; mmin: number; mmax: number },
+  box: Box,
 ): Buffer {
   let n = 0;
   for (const p of parts) n += p.length;
@@ -254,7 +293,7 @@ function encodeRecord(
   return b;
 }
 
-function writeMainHeader(h: Buffer, shapeType: number, lengthWords: number, box: { xmin: number; ymin: number; xmax: number; ymax: number; zmin: number; zmax: number; mmin: number; mmax: number }, withZ: boolean, withM: boolean): void {
+function writeMainHeader(h: Buffer, shapeType: number, lengthWords: number, box: Box, withZ: boolean, withM: boolean): void {
   h.fill(0);
   h.writeInt32BE(9994, 0);
   h.writeInt32BE(lengthWords, 24);

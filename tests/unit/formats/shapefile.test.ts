@@ -123,7 +123,24 @@ describe("Shapefile writing, checked with the shapefile package", () => {
     expect(area(rings[1]!)).toBeGreaterThan(0);
     // A long name is cut to ten characters; the metadata maps it back.
     expect(Object.keys(collection.features[0]!.properties!)).toEqual(["parcel_ide"]);
-    expect(JSON.parse(readFileSync(f["parcels.metadata.json"]!, "utf8")).dbfFieldNames).toEqual({ parcel_identifier_long_name: "parcel_ide" });
+    expect(JSON.parse(readFileSync(f["parcels.metadata.json"]!, "utf8")).dbfFieldNames).toEqual({ "parcels.dbf": { parcel_identifier_long_name: "parcel_ide" } });
+  });
+
+  it("puts lines and polygons of one dataset into two Shapefiles of the archive", async () => {
+    const dest = s.path("town.zip");
+    const lines = roads.map((r) => ({ ...r, geometry: { ...r.geometry, coordinates: r.geometry.type === "LineString" ? r.geometry.coordinates.map((p) => [p[0]! - 451000, p[1]! - 205000]) : r.geometry.coordinates } }));
+    const r = await writeOutput("shapefile", from([lines[0]!, parcels[0]!]), dest, { crs: "EPSG:32630" });
+    expect(r.notes.join(" ")).toMatch(/separate Shapefiles/);
+    const f = await unzip(dest, s.path("town-unzipped"));
+    expect(Object.keys(f).sort()).toEqual([
+      "town.metadata.json",
+      "town_areas.cpg", "town_areas.dbf", "town_areas.prj", "town_areas.shp", "town_areas.shx",
+      "town_lines.cpg", "town_lines.dbf", "town_lines.prj", "town_lines.shp", "town_lines.shx",
+    ]);
+    const lineLayer = await shapefile.read(readFileSync(f["town_lines.shp"]!), readFileSync(f["town_lines.dbf"]!), { encoding: "utf-8" });
+    const areaLayer = await shapefile.read(readFileSync(f["town_areas.shp"]!), readFileSync(f["town_areas.dbf"]!));
+    expect(lineLayer.features.map((x) => x.properties?.name)).toEqual(["Mill Lane"]);
+    expect(areaLayer.features[0]!.geometry.type).toBe("Polygon");
   });
 
   it("refuses a .dbf that is not UTF-8 when there is no .cpg, and reads it with one", async () => {
