@@ -15,6 +15,7 @@ export default defineConfig({
   test: {
     include: ["tests/unit/**/*.test.ts", "tests/integration/**/*.test.ts", "app/**/*.test.ts", "jobs/**/*.test.ts"],
     environment: "node",
+    setupFiles: ["tests/setup.ts"],
     testTimeout: 30_000,
     hookTimeout: 30_000,
     pool: "forks",
