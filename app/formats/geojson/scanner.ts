@@ -3,10 +3,11 @@
  * and string state, and cuts the text into the root object's members and, inside the root's
  * `features` array, one slice per Feature. Each slice is then parsed with `JSON.parse`, which
  * does the full syntax check. This keeps memory bounded by the largest single Feature and reads
- * at close to `JSON.parse`'s own speed; a token-by-token streaming parser (tried: the
- * `@loaders.gl/json` streaming parser) measured about 0.3× `JSON.parse` on the same machine,
- * below the 0.5× the benchmark asks for. `@loaders.gl/json`'s parser still serves to locate a
- * syntax error (line, column, byte) once `JSON.parse` has refused a slice (see `json-error.ts`).
+ * at `JSON.parse`'s own speed or better (short-lived per-feature objects are cheap to collect).
+ * A token-by-token streaming parser (the `@loaders.gl/json` streaming parser, kept as a
+ * reference in tests/bench/formats.bench.ts) read the same files at about a third of this
+ * splitter's speed, and its error positions proved unreliable, so syntax errors are located by
+ * `json-error.ts` once `JSON.parse` has refused a slice.
  *
  * The splitter checks the structure it walks (root is an object, members separated by commas,
  * `features` elements separated by commas, nothing after the root); the text inside each slice
