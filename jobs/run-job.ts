@@ -3,7 +3,7 @@ import { join } from "node:path";
 import { and, eq, sql } from "drizzle-orm";
 import { db, schema } from "../app/.server/db/client.server";
 import { commitStagingDir, makeStagingDir, removeStored, storagePath } from "../app/.server/storage.server";
-import { readFeatures, writeOutput } from "../app/formats";
+import { OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES, readFeatures, writeOutput, type OutputFormat } from "../app/formats";
 import { jobLog } from "./job-log";
 import { runFeatureStep, type FeatureReport, type StepName } from "./steps";
 
@@ -61,7 +61,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
   await log.info(`Attempt ${ctx.attempt} started: ${steps.map((s) => s.step).join(" → ")} on ${dataset?.name ?? "dataset"} v${version.version} (${featuresTotal ?? "?"} features).`);
 
   const inputDir = storagePath(version.storagePath);
-  const files = (await readdir(inputDir)).map((name) => ({ name, path: join(inputDir, name) }));
+  const inputFiles = (await readdir(inputDir)).map((name) => ({ name, path: join(inputDir, name) }));
   const crs = { code: summary.crs?.code ?? "EPSG:4326" };
   const reports: FeatureReport[] = [];
   let done = 0;
@@ -74,7 +74,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
   }
 
   async function* processed() {
-    for await (const { index, feature } of readFeatures(files, { crs: crs.code })) {
+    for await (const { index, feature } of readFeatures(inputFiles, { crs: crs.code })) {
       let current: object = feature;
       let report: FeatureReport | undefined;
       for (const spec of steps) {
@@ -111,18 +111,33 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
   }
 
   const staging = await makeStagingDir();
-  const fileName = `${safeName(dataset?.name ?? "output")}-v${version.version}-${steps.map((s) => s.step).join("-")}.geojson`;
+  const baseName = `${safeName(dataset?.name ?? "output")}-v${version.version}-${steps.map((s) => s.step).join("-")}`;
+  const formats = outputFormats(job.inputs);
   const tolerance = steps.find((s) => typeof s.params.tolerance === "number")?.params.tolerance as number | undefined;
   const metadata = {
     lissom: { job: jobId, attempt: ctx.attempt },
     source: { dataset: dataset?.name, version: version.version, file: version.fileName },
     steps,
     tolerance_m: tolerance ?? null,
+    crs: crs.code,
+    title: dataset?.name,
     caution:
       "Approximation within the stated tolerance. Not for legal boundary definition or for locating buried utilities; defer to local survey codes and licensed surveyors.",
   };
+  // The steps run once, into GeoJSON with curves; other formats are written from that file,
+  // so every format of one job holds the same curves.
+  const primary = join(staging, `${baseName}.geojson`);
+  const written: { format: OutputFormat; fileName: string }[] = [];
   try {
-    await writeOutput("geojson", processed(), join(staging, fileName), metadata);
+    await writeOutput("geojson", processed(), primary, metadata);
+    if (formats.includes("geojson")) written.push({ format: "geojson", fileName: `${baseName}.geojson` });
+    for (const format of formats) {
+      if (format === "geojson" || dismissed) continue;
+      const fileName = `${baseName}${OUTPUT_EXTENSIONS[format]}`;
+      await writeOutput(format, reread(primary), join(staging, fileName), metadata);
+      written.push({ format, fileName });
+    }
+    if (!formats.includes("geojson")) await removeStored(primary);
   } catch (error) {
     await removeStored(staging);
     throw error;
@@ -137,7 +152,9 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
   const relative = `outputs/${jobId}/attempt-${ctx.attempt}`;
   await removeStored(relative);
   await commitStagingDir(staging, relative);
-  const { size } = await stat(join(storagePath(relative), fileName));
+  const outputFiles = await Promise.all(
+    written.map(async (w) => ({ ...w, size: (await stat(join(storagePath(relative), w.fileName))).size })),
+  );
   const previous = await d.query.outputs.findMany({ where: eq(schema.outputs.jobId, jobId) });
   const finished = new Date();
   const counts = countStatuses(reports);
@@ -159,16 +176,18 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
           })),
         );
       }
-      await tx.insert(schema.outputs).values({
-        id: crypto.randomUUID(),
-        jobId,
-        format: "geojson",
-        fileName,
-        mediaType: "application/geo+json",
-        storagePath: `${relative}/${fileName}`,
-        sizeBytes: size,
-        metadata,
-      });
+      await tx.insert(schema.outputs).values(
+        outputFiles.map((f) => ({
+          id: crypto.randomUUID(),
+          jobId,
+          format: f.format,
+          fileName: f.fileName,
+          mediaType: OUTPUT_MEDIA_TYPES[f.format],
+          storagePath: `${relative}/${f.fileName}`,
+          sizeBytes: f.size,
+          metadata,
+        })),
+      );
       await tx.update(schema.attempts).set({ status: "successful", finishedAt: finished }).where(and(eq(schema.attempts.jobId, jobId), eq(schema.attempts.number, ctx.attempt)));
       await tx
         .update(schema.jobs)
@@ -193,7 +212,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
     if (oldDir !== relative) await removeStored(oldDir);
   }
   await ctx.onProgress?.(100);
-  await log.info(`Finished: ${plural(done, "feature")} (${counts}); output ${fileName}.`);
+  await log.info(`Finished: ${plural(done, "feature")} (${counts}); output ${outputFiles.map((f) => f.fileName).join(", ")}.`);
   return "successful";
 }
 
@@ -201,6 +220,19 @@ function countStatuses(reports: FeatureReport[]): string {
   const counts = new Map<string, number>();
   for (const r of reports) counts.set(r.status, (counts.get(r.status) ?? 0) + 1);
   return [...counts].map(([k, v]) => `${v} ${k}`).join(", ") || "none";
+}
+
+const ALL_FORMATS = Object.keys(OUTPUT_EXTENSIONS) as OutputFormat[];
+
+/** The output formats a job asked for (its `formats` input), GeoJSON when it named none. */
+function outputFormats(inputs: unknown): OutputFormat[] {
+  const asked = (inputs as { formats?: unknown } | null)?.formats;
+  const valid = Array.isArray(asked) ? asked.filter((f): f is OutputFormat => ALL_FORMATS.includes(f as OutputFormat)) : [];
+  return valid.length ? [...new Set(valid)] : ["geojson"];
+}
+
+async function* reread(path: string) {
+  for await (const { feature } of readFeatures([{ path, name: path.split("/").pop()! }])) yield feature;
 }
 
 function plural(n: number, word: string): string {

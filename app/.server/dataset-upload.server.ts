@@ -2,7 +2,7 @@ import { rename } from "node:fs/promises";
 import { join } from "node:path";
 import { z } from "zod";
 import { DATASET_NAME_PATTERN, DatasetInputError, ingestDataset } from "./datasets.server";
-import { env } from "./env.server";
+import { MAX_UPLOAD_BYTES } from "../formats";
 import { makeStagingDir, removeStored } from "./storage.server";
 import { receiveMultipart, UploadError } from "./upload.server";
 
@@ -27,7 +27,7 @@ export type UploadOutcome =
 export async function handleDatasetUpload(request: Request, userId: string): Promise<UploadOutcome> {
   const staging = await makeStagingDir();
   try {
-    const { fields, files } = await receiveMultipart(request, staging, { maxFileBytes: env().UPLOAD_MAX_BYTES });
+    const { fields, files } = await receiveMultipart(request, staging, { maxFileBytes: MAX_UPLOAD_BYTES });
     const uploads = files.filter((f) => f.field === "file");
     if (uploads.length === 0 || uploads.every((f) => f.size === 0)) {
       return { ok: false, status: 400, field: "file", message: "file: choose a GeoJSON file (or a zipped Shapefile) to upload." };

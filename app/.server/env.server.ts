@@ -18,8 +18,6 @@ const schema = z.object({
   PORT: z.coerce.number().int().positive().default(3000),
   LOG_LEVEL: z.enum(["fatal", "error", "warn", "info", "debug", "trace", "silent"]).default("info"),
   WORKER_CONCURRENCY: z.coerce.number().int().min(1).max(64).default(1),
-  /** Largest accepted upload, in bytes (default 2 GiB). */
-  UPLOAD_MAX_BYTES: z.coerce.number().int().positive().default(2 * 1024 ** 3),
 });
 
 export type Env = z.infer<typeof schema> & { demo: boolean; authSecret: string; baseURL: string };

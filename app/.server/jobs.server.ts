@@ -1,4 +1,4 @@
-import { and, asc, count, desc, eq, gt, inArray } from "drizzle-orm";
+import { and, asc, count, desc, eq, gt, inArray, type SQL } from "drizzle-orm";
 import { enqueueJob, isQueued, removeQueued } from "../../jobs/queue";
 import { db, schema } from "./db/client.server";
 import { logger } from "./logger.server";
@@ -51,24 +51,8 @@ export async function submitJob(input: {
 }
 
 export async function listJobs(options: { status?: JobStatus[]; limit?: number; offset?: number } = {}) {
-  const d = db();
   const where = options.status?.length ? inArray(schema.jobs.status, options.status) : undefined;
-  const rows = await d
-    .select({
-      job: schema.jobs,
-      datasetName: schema.datasets.name,
-      datasetVersion: schema.datasetVersions.version,
-      submittedBy: schema.user.email,
-    })
-    .from(schema.jobs)
-    .innerJoin(schema.datasetVersions, eq(schema.jobs.datasetVersionId, schema.datasetVersions.id))
-    .innerJoin(schema.datasets, eq(schema.datasetVersions.datasetId, schema.datasets.id))
-    .leftJoin(schema.user, eq(schema.jobs.submittedBy, schema.user.id))
-    .where(where)
-    .orderBy(desc(schema.jobs.createdAt))
-    .limit(options.limit ?? 50)
-    .offset(options.offset ?? 0);
-  return rows.map((r) => ({ ...r.job, datasetName: r.datasetName, datasetVersion: r.datasetVersion, submittedByEmail: r.submittedBy }));
+  return selectJobs(where, { limit: options.limit ?? 50, offset: options.offset ?? 0 });
 }
 
 export async function countJobsByStatus(): Promise<Record<JobStatus, number>> {
@@ -79,20 +63,35 @@ export async function countJobsByStatus(): Promise<Record<JobStatus, number>> {
 }
 
 export async function getJob(id: string) {
-  const [row] = await listJobsWhere(eq(schema.jobs.id, id));
+  const [row] = await selectJobs(eq(schema.jobs.id, id), { limit: 1, offset: 0 });
   return row ?? null;
 }
 
-async function listJobsWhere(where: ReturnType<typeof eq>) {
-  const d = db();
-  const rows = await d
-    .select({ job: schema.jobs, datasetId: schema.datasets.id, datasetName: schema.datasets.name, datasetVersion: schema.datasetVersions.version, submittedBy: schema.user.email })
+/** Jobs with the names people need beside them: dataset, version, submitter; newest first. */
+async function selectJobs(where: SQL | undefined, page: { limit: number; offset: number }) {
+  const rows = await db()
+    .select({
+      job: schema.jobs,
+      datasetId: schema.datasets.id,
+      datasetName: schema.datasets.name,
+      datasetVersion: schema.datasetVersions.version,
+      submittedBy: schema.user.email,
+    })
     .from(schema.jobs)
     .innerJoin(schema.datasetVersions, eq(schema.jobs.datasetVersionId, schema.datasetVersions.id))
     .innerJoin(schema.datasets, eq(schema.datasetVersions.datasetId, schema.datasets.id))
     .leftJoin(schema.user, eq(schema.jobs.submittedBy, schema.user.id))
-    .where(where);
-  return rows.map((r) => ({ ...r.job, datasetId: r.datasetId, datasetName: r.datasetName, datasetVersion: r.datasetVersion, submittedByEmail: r.submittedBy }));
+    .where(where)
+    .orderBy(desc(schema.jobs.createdAt))
+    .limit(page.limit)
+    .offset(page.offset);
+  return rows.map((r) => ({
+    ...r.job,
+    datasetId: r.datasetId,
+    datasetName: r.datasetName,
+    datasetVersion: r.datasetVersion,
+    submittedByEmail: r.submittedBy,
+  }));
 }
 
 /** Log entries after `afterId` (for tailing), oldest first. */

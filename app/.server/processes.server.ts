@@ -5,6 +5,20 @@ import { z } from "zod";
  * Part 1: Core). Each process runs one built-in step on a dataset. Inputs are checked with
  * zod before anything is stored or queued.
  */
+export const OUTPUT_FORMATS = ["geojson", "ndjson", "shapefile", "gml", "svg", "csv"] as const;
+export const OUTPUT_FORMAT_LABELS: Record<(typeof OUTPUT_FORMATS)[number], string> = {
+  geojson: "GeoJSON with curves",
+  ndjson: "Newline-delimited GeoJSON",
+  shapefile: "Shapefile (zip)",
+  gml: "GML 3.2 with Bézier segments",
+  svg: "SVG picture",
+  csv: "CSV of control points",
+};
+const formats = z
+  .array(z.enum(OUTPUT_FORMATS, { error: `formats: each must be one of ${OUTPUT_FORMATS.join(", ")}` }))
+  .min(1, "formats: name at least one output format")
+  .optional();
+
 const datasetInput = z.string({ error: "dataset must be a dataset id (a string)" }).min(1, "dataset must be a dataset id");
 const tolerance = z
   .number({ error: "tolerance must be a number of metres" })
@@ -20,12 +34,19 @@ export const processes = {
     inputs: z.object({
       dataset: datasetInput,
       tolerance,
-      cornerAngle: z.number().min(0).max(180).optional(),
+      cornerAngle: z.number({ error: "cornerAngle must be a number of degrees" }).min(0).max(180).optional(),
+      formats,
     }),
     inputDescriptions: {
       dataset: { title: "Dataset", description: "Id of a dataset; its latest version is used.", schema: { type: "string" } },
       tolerance: { title: "Tolerance (m)", description: "Largest allowed distance on the ground between input and fitted path, in metres.", schema: { type: "number", exclusiveMinimum: 0 } },
       cornerAngle: { title: "Corner angle (°)", description: "Turns sharper than this are kept as corners.", schema: { type: "number", minimum: 0, maximum: 180 }, minOccurs: 0 },
+      formats: {
+        title: "Output formats",
+        description: "Files to produce; GeoJSON with curves when none is named.",
+        schema: { type: "array", items: { type: "string", enum: [...OUTPUT_FORMATS] }, minItems: 1 },
+        minOccurs: 0,
+      },
     },
     toSteps: (i: { tolerance: number; cornerAngle?: number }) => [
       { step: "fit" as const, params: { tolerance: i.tolerance, ...(i.cornerAngle !== undefined ? { cornerAngle: i.cornerAngle } : {}) } },
@@ -63,8 +84,9 @@ export function processDescription(id: ProcessId) {
     inputs: processes[id].inputDescriptions,
     outputs: {
       result: {
-        title: "GeoJSON with curves",
-        description: "One Feature per input Feature; geometry is the discretised curve, the foreign member `curves` holds each part's Bézier control points.",
+        title: "Fitted dataset",
+        description:
+          "One file per requested format. GeoJSON: one Feature per input Feature; geometry is the discretised curve, the foreign member `curves` holds each part's Bézier control points.",
         schema: { type: "string", contentMediaType: "application/geo+json" },
       },
     },

@@ -3,6 +3,7 @@ import { basename, join } from "node:path";
 import { Readable } from "node:stream";
 import { pipeline } from "node:stream/promises";
 import busboy from "busboy";
+import { formatBytes } from "../formats";
 
 export class UploadError extends Error {
   constructor(
@@ -56,7 +57,7 @@ export async function receiveMultipart(
     });
     stream.on("limit", () => {
       failure ??= new UploadError(
-        `${name}: the file is larger than the upload limit of ${formatBytes(options.maxFileBytes)}. Split the dataset or ask an admin to raise UPLOAD_MAX_BYTES.`,
+        `${name}: the file is larger than the upload limit of ${formatBytes(options.maxFileBytes)}. Split the dataset, or ask an admin to raise LISSOM_MAX_UPLOAD_MB.`,
         413,
       );
     });
@@ -71,9 +72,3 @@ export async function receiveMultipart(
   return { fields, files };
 }
 
-export function formatBytes(n: number): string {
-  if (n >= 1024 ** 3) return `${(n / 1024 ** 3).toFixed(1)} GiB`;
-  if (n >= 1024 ** 2) return `${(n / 1024 ** 2).toFixed(1)} MiB`;
-  if (n >= 1024) return `${(n / 1024).toFixed(1)} KiB`;
-  return `${n} B`;
-}

@@ -16,8 +16,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     return problem(404, "Results not ready", `The job is ${job.status}.`, { type: "http://www.opengis.net/def/exceptions/ogcapi-processes-1/1.0/result-not-ready" });
   }
   const outputs = await jobOutputs(job.id);
-  const result = outputs[0];
-  return Response.json({
-    ...(result ? { result: { href: `/outputs/${result.id}/download`, type: result.mediaType, title: result.fileName } } : {}),
-  });
+  const links = outputs.map((o) => ({ href: `/outputs/${o.id}/download`, type: o.mediaType, title: o.fileName, format: o.format }));
+  // `result` is the first requested format; every file is listed under `files`.
+  return Response.json({ ...(links[0] ? { result: links[0] } : {}), files: links });
 }

@@ -4,6 +4,7 @@ import { setNotice } from "../.server/flash.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
 import { datasetPreview } from "../.server/preview.server";
+import { OUTPUT_FORMAT_LABELS, OUTPUT_FORMATS } from "../.server/processes.server";
 import { submitProcess } from "../.server/submit.server";
 import { LineworkPlot } from "../components/linework-plot";
 import { Card, Notice, PageHeader, buttonClass, inputClass } from "../components/page";
@@ -14,16 +15,23 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const dataset = await getDataset(params.datasetId);
   if (!dataset) throw data({ detail: "There is no dataset with this id." }, { status: 404 });
   const latest = dataset.versions[0]!;
-  return { dataset, preview: await datasetPreview(latest.storagePath), canSubmit: can(user.role, { job: ["submit"] }) };
+  const formats = OUTPUT_FORMATS.map((id) => ({ id, label: OUTPUT_FORMAT_LABELS[id] }));
+  return { dataset, formats, preview: await datasetPreview(latest.storagePath), canSubmit: can(user.role, { job: ["submit"] }) };
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requirePermission(request, { job: ["submit"] });
   const form = await request.formData();
   const cornerAngle = String(form.get("cornerAngle") ?? "").trim();
+  const formats = form.getAll("formats").map(String);
   const outcome = await submitProcess(
     "fit",
-    { dataset: params.datasetId, tolerance: Number(String(form.get("tolerance") ?? "").trim() || NaN), ...(cornerAngle ? { cornerAngle: Number(cornerAngle) } : {}) },
+    {
+      dataset: params.datasetId,
+      tolerance: Number(String(form.get("tolerance") ?? "").trim() || NaN),
+      ...(cornerAngle ? { cornerAngle: Number(cornerAngle) } : {}),
+      ...(formats.length ? { formats } : {}),
+    },
     user.id,
   );
   if (!outcome.ok) return data({ error: outcome.message }, { status: outcome.status });
@@ -31,7 +39,7 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function DatasetPage({ loaderData }: Route.ComponentProps) {
-  const { dataset, preview, canSubmit } = loaderData;
+  const { dataset, preview, canSubmit, formats } = loaderData;
   const latest = dataset.versions[0]!;
   const s = latest.summary;
   const result = useActionData<typeof action>();
@@ -59,6 +67,17 @@ export default function DatasetPage({ loaderData }: Route.ComponentProps) {
                   Corner angle (°) <span className="font-normal text-ink-faint">(optional)</span>
                   <input name="cornerAngle" type="number" step="any" min="0" max="180" className={`mt-1 ${inputClass}`} />
                 </label>
+                <fieldset>
+                  <legend className="text-sm font-medium">Output formats</legend>
+                  <div className="mt-1 grid gap-1">
+                    {formats.map((f) => (
+                      <label key={f.id} className="flex items-center gap-2 text-sm">
+                        <input type="checkbox" name="formats" value={f.id} defaultChecked={f.id === "geojson"} className="accent-tide-600" />
+                        {f.label}
+                      </label>
+                    ))}
+                  </div>
+                </fieldset>
                 <button type="submit" className={`${buttonClass} w-full`} disabled={busy}>
                   {busy ? "Queuing…" : "Run fit"}
                 </button>

@@ -102,6 +102,42 @@ describe("the slice through the API: upload, fit, status, results, download", ()
   });
 });
 
+describe("output formats", () => {
+  it("writes every requested format from one run of the steps", async () => {
+    const { listDatasets } = await import("../../../app/.server/datasets.server");
+    const dataset = (await listDatasets()).find((d) => d.name === "api river") ?? (await listDatasets())[0]!;
+    const { action: executeAction } = await api.execution();
+    const formats = ["geojson", "ndjson", "shapefile", "gml", "svg", "csv"];
+    const created = await call(executeAction as never, { request: execute({ dataset: dataset.id, tolerance: 8, formats }, cookies.engineer!), params: { processId: "fit" } });
+    expect(created.status).toBe(201);
+    const jobId = (created.body as { jobID: string }).jobID;
+    const { loader: jobLoader } = await api.job();
+    const deadline = Date.now() + 60_000;
+    let status = "accepted";
+    while (Date.now() < deadline && status !== "successful" && status !== "failed") {
+      await new Promise((r) => setTimeout(r, 200));
+      status = ((await call(jobLoader as never, { request: request(`/api/jobs/${jobId}`, { cookie: cookies.engineer }), params: { jobId } })).body as { status: string }).status;
+    }
+    expect(status).toBe("successful");
+    const { loader: resultsLoader } = await api.results();
+    const results = await call(resultsLoader as never, { request: request(`/api/jobs/${jobId}/results`, { cookie: cookies.engineer }), params: { jobId } });
+    const files = (results.body as { files: { format: string; title: string; type: string }[] }).files;
+    expect(files.map((f) => f.format).sort()).toEqual([...formats].sort());
+    // Media types: RFC 7946 §12 (application/geo+json), RFC 8142 (application/geo+json-seq).
+    expect(files.find((f) => f.format === "geojson")!.type).toBe("application/geo+json");
+    expect(files.find((f) => f.format === "ndjson")!.type).toBe("application/geo+json-seq");
+  });
+
+  it("refuses an unknown format before queuing", async () => {
+    const { listDatasets } = await import("../../../app/.server/datasets.server");
+    const dataset = (await listDatasets())[0]!;
+    const { action: executeAction } = await api.execution();
+    const res = await call(executeAction as never, { request: execute({ dataset: dataset.id, tolerance: 8, formats: ["dwg"] }, cookies.engineer!), params: { processId: "fit" } });
+    expect(res.status).toBe(400);
+    expect((res.body as { detail: string }).detail).toMatch(/^formats/);
+  });
+});
+
 describe("bad input is refused with the file and the reason, and nothing is stored", () => {
   it("refuses a file that is not GeoJSON", async () => {
     const before = await datasetCount();
