@@ -8,12 +8,15 @@
  *
  * The dataset is made here with a seeded generator: random-walk lines of 200 vertices near the
  * invented town of Brindlewick, with cubic `curves` over consecutive vertices for the writers.
- * GML, SVG and CSV are output formats only, so they are written, not read.
+ * GML, SVG and CSV are output formats only, so they are written, not read. Each phase runs in
+ * a fresh Node process, so a phase's peak memory is not inflated by the one before it.
  */
+import { spawn } from "node:child_process";
 import { createReadStream, readFileSync, statSync } from "node:fs";
 import { mkdtemp, rm } from "node:fs/promises";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
+import { fileURLToPath } from "node:url";
 import { setFlagsFromString } from "node:v8";
 import { runInNewContext } from "node:vm";
 import { parseInBatches } from "@loaders.gl/core";
@@ -113,53 +116,86 @@ async function countRead(path: string, name: string): Promise<{ vertices: number
   return { vertices, bytes: statSync(path).size };
 }
 
-export default async function formatsBench(): Promise<void> {
-  const N = Number(process.env.LISSOM_BENCH_VERTICES ?? 2_000_000);
-  const dir = await mkdtemp(join(tmpdir(), "lissom-bench-formats-"));
-  const rows: Row[] = [];
-  const meta = { tolerance_m: 1, steps: [{ step: "fit", params: { tolerance: 1 } }], source: { dataset: "bench" } };
-  try {
-    console.log(`dataset: ${N.toLocaleString("en")} vertices in ${Math.ceil(N / PER_FEATURE).toLocaleString("en")} lines of ${PER_FEATURE}`);
-    // Inputs: plain GeoJSON (no curves), NDJSON and a zipped Shapefile.
-    const input = join(dir, "input.geojson");
-    rows.push(await measure("write geojson (input, no curves)", async () => writeOutput("geojson", generate(N, false), input, meta)));
-    const outputs: [OutputFormat, string][] = [
-      ["geojson", "out.geojson"],
-      ["ndjson", "out.ndjson"],
-      ["shapefile", "out.zip"],
-      ["gml", "out.gml"],
-      ["svg", "out.svg"],
-      ["csv", "out.csv"],
-    ];
-    for (const [format, name] of outputs) {
-      rows.push(await measure(`write ${format} (with curves)`, async () => writeOutput(format, generate(N, true), join(dir, name), meta)));
-    }
-    rows.push(await measure("read geojson (readFeatures)", () => countRead(input, "input.geojson")));
-    rows.push(await measure("read geojson (inspectDataset)", async () => {
-      const s = await inspectDataset([{ path: input, name: "input.geojson" }]);
-      return { vertices: s.vertices, bytes: statSync(input).size };
-    }));
-    rows.push(await measure("read ndjson", () => countRead(join(dir, "out.ndjson"), "out.ndjson")));
-    rows.push(await measure("read shapefile (.zip)", () => countRead(join(dir, "out.zip"), "out.zip")));
-    // References last: they hold the whole file in memory.
-    const parseRow = await measure("reference: JSON.parse whole file", async () => {
+type Phase = { name: string; run: (dir: string, N: number) => Promise<{ vertices: number; bytes?: number }> };
+
+const meta = { tolerance_m: 1, steps: [{ step: "fit", params: { tolerance: 1 } }], source: { dataset: "bench" } };
+const OUTPUTS: [OutputFormat, string][] = [
+  ["geojson", "out.geojson"],
+  ["ndjson", "out.ndjson"],
+  ["shapefile", "out.zip"],
+  ["gml", "out.gml"],
+  ["svg", "out.svg"],
+  ["csv", "out.csv"],
+];
+
+const PHASES: Phase[] = [
+  { name: "write geojson (input, no curves)", run: (dir, N) => writeOutput("geojson", generate(N, false), join(dir, "input.geojson"), meta) },
+  ...OUTPUTS.map(([format, file]): Phase => ({ name: `write ${format} (with curves)`, run: (dir, N) => writeOutput(format, generate(N, true), join(dir, file), meta) })),
+  { name: "read geojson (readFeatures)", run: (dir) => countRead(join(dir, "input.geojson"), "input.geojson") },
+  {
+    name: "read geojson (inspectDataset)",
+    run: async (dir) => {
+      const summary = await inspectDataset([{ path: join(dir, "input.geojson"), name: "input.geojson" }]);
+      return { vertices: summary.vertices, bytes: statSync(join(dir, "input.geojson")).size };
+    },
+  },
+  { name: "read ndjson", run: (dir) => countRead(join(dir, "out.ndjson"), "out.ndjson") },
+  { name: "read shapefile (.zip)", run: (dir) => countRead(join(dir, "out.zip"), "out.zip") },
+  {
+    name: "reference: JSON.parse whole file",
+    run: async (dir) => {
+      const input = join(dir, "input.geojson");
       const doc = JSON.parse(readFileSync(input, "utf8")) as { features: GeoJSONFeature[] };
       let vertices = 0;
       for (const f of doc.features) vertices += (f.geometry.coordinates as unknown[]).length;
       return { vertices, bytes: statSync(input).size };
-    });
-    rows.push(parseRow);
-    const loadersRow = await measure("reference: @loaders.gl/json streaming", async () => {
+    },
+  },
+  {
+    name: "reference: @loaders.gl/json streaming",
+    run: async (dir) => {
+      const input = join(dir, "input.geojson");
       let vertices = 0;
       const batches = await parseInBatches(createReadStream(input), JSONLoader, { json: { jsonpaths: ["$.features"] } } as never);
       for await (const batch of batches as AsyncIterable<{ data: GeoJSONFeature[] }>) {
         for (const f of batch.data ?? []) vertices += (f.geometry.coordinates as unknown[]).length;
       }
       return { vertices, bytes: statSync(input).size };
-    });
-    rows.push(loadersRow);
+    },
+  },
+];
 
-    const pad = (s: string, n: number) => s.padEnd(n);
+/** Runs one phase in a fresh Node process (same loader flags), so each peak memory is its own. */
+function runPhaseProcess(index: number, dir: string, N: number): Promise<Row> {
+  return new Promise((resolve, reject) => {
+    const child = spawn(process.execPath, [...process.execArgv, fileURLToPath(import.meta.url), "--phase", String(index), dir, String(N)], { stdio: ["ignore", "pipe", "inherit"] });
+    let out = "";
+    child.stdout.on("data", (d) => (out += d));
+    child.on("error", reject);
+    child.on("close", (code) => {
+      const line = out.split("\n").find((l) => l.startsWith("RESULT "));
+      if (code !== 0 || !line) return reject(new Error(`phase "${PHASES[index]!.name}" failed (exit ${code}): ${out}`));
+      resolve(JSON.parse(line.slice(7)) as Row);
+    });
+  });
+}
+
+async function childMain(index: number, dir: string, N: number): Promise<void> {
+  const phase = PHASES[index]!;
+  const row = await measure(phase.name, () => phase.run(dir, N));
+  process.stdout.write(`RESULT ${JSON.stringify(row)}\n`);
+}
+
+export default async function formatsBench(): Promise<void> {
+  const N = Number(process.env.LISSOM_BENCH_VERTICES ?? 2_000_000);
+  const dir = await mkdtemp(join(tmpdir(), "lissom-bench-formats-"));
+  const rows: Row[] = [];
+  try {
+    console.log(`dataset: ${N.toLocaleString("en")} vertices in ${Math.ceil(N / PER_FEATURE).toLocaleString("en")} lines of ${PER_FEATURE}; each phase in its own process`);
+    for (let i = 0; i < PHASES.length; i++) rows.push(await runPhaseProcess(i, dir, N));
+    const parseRow = rows.find((r) => r.phase === "reference: JSON.parse whole file")!;
+    const loadersRow = rows.find((r) => r.phase === "reference: @loaders.gl/json streaming")!;
+    const pad = (t: string, n: number) => t.padEnd(n);
     console.log(`${pad("phase", 40)} ${"vertices/s".padStart(12)} ${"time s".padStart(8)} ${"MB/s".padStart(7)} ${"peak RSS MB".padStart(12)} ${"peak heap MB".padStart(13)}`);
     for (const r of rows) {
       const vps = r.vertices / (r.ms / 1000);
@@ -171,11 +207,14 @@ export default async function formatsBench(): Promise<void> {
     const loadersRatio = parseRow.ms / loadersRow.ms;
     const streaming = rows.filter((r) => !r.phase.startsWith("reference"));
     const worst = streaming.reduce((a, r) => (r.peakRss > a.peakRss ? r : a));
-    console.log(`GeoJSON reading vs JSON.parse (same file, same process): ${ratio.toFixed(2)}× (target ≥ 0.5×); @loaders.gl/json streaming: ${loadersRatio.toFixed(2)}×`);
+    console.log(`GeoJSON reading vs JSON.parse (same file, same run; both include reading the file): ${ratio.toFixed(2)}× (target ≥ 0.5×); @loaders.gl/json streaming: ${loadersRatio.toFixed(2)}×`);
     console.log(`peak resident memory of the streaming phases: ${(worst.peakRss / MB).toFixed(0)} MB in "${worst.phase}" (target < 300 MB); JSON.parse reference: ${(parseRow.peakRss / MB).toFixed(0)} MB`);
-    const checks = rows.filter((r) => r.phase.startsWith("read")).every((r) => r.vertices === Math.ceil(N / PER_FEATURE) * PER_FEATURE);
-    console.log(`every reader saw all ${(Math.ceil(N / PER_FEATURE) * PER_FEATURE).toLocaleString("en")} vertices: ${checks ? "yes" : "NO"}`);
+    const expected = Math.ceil(N / PER_FEATURE) * PER_FEATURE;
+    const checks = rows.filter((r) => r.phase.startsWith("read") || r.phase.startsWith("reference")).every((r) => r.vertices === expected);
+    console.log(`every reader saw all ${expected.toLocaleString("en")} vertices: ${checks ? "yes" : "NO"}`);
   } finally {
     await rm(dir, { recursive: true, force: true });
   }
 }
+
+if (process.argv[2] === "--phase") await childMain(Number(process.argv[3]), process.argv[4]!, Number(process.argv[5]));

@@ -34,7 +34,9 @@ export async function* readGeoJSON(file: InputFile, options: ReadOptions, sink: 
     if (gate) return gate;
     const { summary, resolved } = geojsonCrs(file.name, root.crs, options);
     sink.crs(summary, resolved);
-    if (summary.nonStandard) {
+    if (summary.nonStandard && summary.source === "option") {
+      sink.warn({ message: `the file's "crs" member says ${describeCrsMember(root.crs)}; the CRS given for the dataset (${summary.code}) is used instead`, action: "note" });
+    } else if (summary.nonStandard) {
       sink.warn({ message: `the file declares its CRS with the "crs" member (${describeCrsMember(root.crs)}), which RFC 7946 §4 removed; it was honoured as ${summary.code}`, action: "note" });
     }
     gate = new FeatureGate(file.name, resolved, sink);
