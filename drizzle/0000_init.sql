@@ -58,7 +58,11 @@ CREATE TABLE `definitions` (
 	`id` text PRIMARY KEY NOT NULL,
 	`name` text NOT NULL,
 	`version` integer NOT NULL,
+	`description` text,
 	`steps` text NOT NULL,
+	`formats` text DEFAULT '["geojson"]' NOT NULL,
+	`max_attempts` integer DEFAULT 3 NOT NULL,
+	`backoff_ms` integer DEFAULT 2000 NOT NULL,
 	`created_by` text,
 	`created_at` integer DEFAULT (unixepoch() * 1000) NOT NULL,
 	FOREIGN KEY (`created_by`) REFERENCES `user`(`id`) ON UPDATE no action ON DELETE set null
@@ -85,6 +89,11 @@ CREATE TABLE `jobs` (
 	`queue_id` text,
 	`inputs` text NOT NULL,
 	`definition_id` text,
+	`parent_id` text,
+	`chunk_index` integer,
+	`feature_start` integer,
+	`feature_end` integer,
+	`schedule_id` text,
 	`dataset_version_id` text NOT NULL,
 	`steps` text NOT NULL,
 	`status` text DEFAULT 'accepted' NOT NULL,
@@ -100,12 +109,15 @@ CREATE TABLE `jobs` (
 	`finished_at` integer,
 	`updated_at` integer DEFAULT (unixepoch() * 1000) NOT NULL,
 	FOREIGN KEY (`definition_id`) REFERENCES `definitions`(`id`) ON UPDATE no action ON DELETE set null,
+	FOREIGN KEY (`parent_id`) REFERENCES `jobs`(`id`) ON UPDATE no action ON DELETE cascade,
+	FOREIGN KEY (`schedule_id`) REFERENCES `schedules`(`id`) ON UPDATE no action ON DELETE set null,
 	FOREIGN KEY (`dataset_version_id`) REFERENCES `dataset_versions`(`id`) ON UPDATE no action ON DELETE restrict,
 	FOREIGN KEY (`submitted_by`) REFERENCES `user`(`id`) ON UPDATE no action ON DELETE set null
 );
 --> statement-breakpoint
 CREATE INDEX `jobs_status_idx` ON `jobs` (`status`);--> statement-breakpoint
 CREATE INDEX `jobs_created_idx` ON `jobs` (`created_at`);--> statement-breakpoint
+CREATE INDEX `jobs_parent_idx` ON `jobs` (`parent_id`);--> statement-breakpoint
 CREATE TABLE `log_entries` (
 	`id` integer PRIMARY KEY AUTOINCREMENT NOT NULL,
 	`job_id` text NOT NULL,
@@ -144,6 +156,7 @@ CREATE TABLE `schedules` (
 	`cron` text NOT NULL,
 	`timezone` text DEFAULT 'UTC' NOT NULL,
 	`paused` integer DEFAULT false NOT NULL,
+	`last_run_at` integer,
 	`created_by` text,
 	`created_at` integer DEFAULT (unixepoch() * 1000) NOT NULL,
 	FOREIGN KEY (`definition_id`) REFERENCES `definitions`(`id`) ON UPDATE no action ON DELETE cascade,
@@ -188,4 +201,15 @@ CREATE TABLE `verification` (
 	`expires_at` integer NOT NULL,
 	`created_at` integer DEFAULT (unixepoch() * 1000) NOT NULL,
 	`updated_at` integer DEFAULT (unixepoch() * 1000) NOT NULL
+);
+--> statement-breakpoint
+CREATE TABLE `workers` (
+	`id` text PRIMARY KEY NOT NULL,
+	`hostname` text NOT NULL,
+	`pid` integer NOT NULL,
+	`mode` text NOT NULL,
+	`concurrency` integer NOT NULL,
+	`started_at` integer NOT NULL,
+	`heartbeat_at` integer NOT NULL,
+	`stopped_at` integer
 );

@@ -1,5 +1,5 @@
 import { sql } from "drizzle-orm";
-import { index, integer, real, sqliteTable, text, uniqueIndex } from "drizzle-orm/sqlite-core";
+import { type AnySQLiteColumn, index, integer, real, sqliteTable, text, uniqueIndex } from "drizzle-orm/sqlite-core";
 
 const createdAt = () =>
   integer("created_at", { mode: "timestamp_ms" })
@@ -108,7 +108,13 @@ export const definitions = sqliteTable(
     id: text("id").primaryKey(),
     name: text("name").notNull(),
     version: integer("version").notNull(),
+    description: text("description"),
     steps: text("steps", { mode: "json" }).notNull(),
+    /** Output formats the definition writes. */
+    formats: text("formats", { mode: "json" }).notNull().default(sql`'["geojson"]'`),
+    /** Retry defaults for jobs of this definition (infrastructure failures only). */
+    maxAttempts: integer("max_attempts").notNull().default(3),
+    backoffMs: integer("backoff_ms").notNull().default(2000),
     createdBy: text("created_by").references(() => user.id, { onDelete: "set null" }),
     createdAt: createdAt(),
   },
@@ -125,6 +131,13 @@ export const jobs = sqliteTable(
     queueId: text("queue_id"),
     inputs: text("inputs", { mode: "json" }).notNull(),
     definitionId: text("definition_id").references(() => definitions.id, { onDelete: "set null" }),
+    /** Set on the chunk jobs of a fanned-out job: the job whose output they make together. */
+    parentId: text("parent_id").references((): AnySQLiteColumn => jobs.id, { onDelete: "cascade" }),
+    chunkIndex: integer("chunk_index"),
+    /** Input feature indexes [start, end) a chunk job covers. */
+    featureStart: integer("feature_start"),
+    featureEnd: integer("feature_end"),
+    scheduleId: text("schedule_id").references((): AnySQLiteColumn => schedules.id, { onDelete: "set null" }),
     datasetVersionId: text("dataset_version_id")
       .notNull()
       .references(() => datasetVersions.id, { onDelete: "restrict" }),
@@ -144,7 +157,7 @@ export const jobs = sqliteTable(
     finishedAt: integer("finished_at", { mode: "timestamp_ms" }),
     updatedAt: integer("updated_at", { mode: "timestamp_ms" }).notNull().default(sql`(unixepoch() * 1000)`),
   },
-  (t) => [index("jobs_status_idx").on(t.status), index("jobs_created_idx").on(t.createdAt)],
+  (t) => [index("jobs_status_idx").on(t.status), index("jobs_created_idx").on(t.createdAt), index("jobs_parent_idx").on(t.parentId)],
 );
 
 export const attempts = sqliteTable(
@@ -229,6 +242,19 @@ export const schedules = sqliteTable("schedules", {
   cron: text("cron").notNull(),
   timezone: text("timezone").notNull().default("UTC"),
   paused: integer("paused", { mode: "boolean" }).notNull().default(false),
+  lastRunAt: integer("last_run_at", { mode: "timestamp_ms" }),
   createdBy: text("created_by").references(() => user.id, { onDelete: "set null" }),
   createdAt: createdAt(),
+});
+
+/** Worker processes' heartbeats, for /healthz and the board. */
+export const workers = sqliteTable("workers", {
+  id: text("id").primaryKey(),
+  hostname: text("hostname").notNull(),
+  pid: integer("pid").notNull(),
+  mode: text("mode", { enum: ["embedded", "redis"] }).notNull(),
+  concurrency: integer("concurrency").notNull(),
+  startedAt: integer("started_at", { mode: "timestamp_ms" }).notNull(),
+  heartbeatAt: integer("heartbeat_at", { mode: "timestamp_ms" }).notNull(),
+  stoppedAt: integer("stopped_at", { mode: "timestamp_ms" }),
 });
