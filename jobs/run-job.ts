@@ -4,6 +4,7 @@ import { and, eq, sql } from "drizzle-orm";
 import { db, schema } from "../app/.server/db/client.server";
 import { commitStagingDir, makeStagingDir, removeStored, storagePath } from "../app/.server/storage.server";
 import { OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES, readFeatures, writeOutput, type OutputFormat } from "../app/formats";
+import { broadcast } from "./broadcast";
 import { jobLog } from "./job-log";
 import { runFeatureStep, type FeatureReport, type StepName } from "./steps";
 
@@ -43,7 +44,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
 
   const log = jobLog(jobId, ctx.attempt);
   const steps = job.steps as StepSpec[];
-  const summary = version.summary as { features?: number; crs?: { code: string } };
+  const summary = version.summary as { features?: number; crs?: { code: string; wkt?: string } };
   const featuresTotal = summary.features ?? null;
   const started = new Date();
 
@@ -73,6 +74,7 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
     return row?.status === "dismissed";
   }
 
+  const wantsInputLayer = outputFormats(job.inputs).includes("svg");
   async function* processed() {
     for await (const { index, feature } of readFeatures(inputFiles, { crs: crs.code })) {
       let current: object = feature;
@@ -106,6 +108,8 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
         await d.update(schema.jobs).set({ progress: percent, featuresDone: done, updatedAt: new Date() }).where(eq(schema.jobs.id, jobId));
         await ctx.onProgress?.(percent);
       }
+      // The SVG writer draws the input beside the result; other writers leave this member out.
+      if (wantsInputLayer) (current as { inputGeometry?: unknown }).inputGeometry = feature.geometry;
       yield current;
     }
   }
@@ -120,27 +124,20 @@ export async function runJob(jobId: string, ctx: RunContext): Promise<RunOutcome
     steps,
     tolerance_m: tolerance ?? null,
     crs: crs.code,
+    ...(summary.crs?.wkt ? { crsWkt: summary.crs.wkt } : {}),
     title: dataset?.name,
     caution:
       "Approximation within the stated tolerance. Not for legal boundary definition or for locating buried utilities; defer to local survey codes and licensed surveyors.",
   };
-  // The steps run once, into GeoJSON with curves; other formats are written from that file,
-  // so every format of one job holds the same curves.
-  const primary = join(staging, `${baseName}.geojson`);
-  const written: { format: OutputFormat; fileName: string }[] = [];
-  try {
-    await writeOutput("geojson", processed(), primary, metadata);
-    if (formats.includes("geojson")) written.push({ format: "geojson", fileName: `${baseName}.geojson` });
-    for (const format of formats) {
-      if (format === "geojson" || dismissed) continue;
-      const fileName = `${baseName}${OUTPUT_EXTENSIONS[format]}`;
-      await writeOutput(format, reread(primary), join(staging, fileName), metadata);
-      written.push({ format, fileName });
-    }
-    if (!formats.includes("geojson")) await removeStored(primary);
-  } catch (error) {
+  // The steps run once; every requested format is written from that one stream, so all
+  // formats of a job hold the same curves.
+  const written = formats.map((format) => ({ format, fileName: `${baseName}${OUTPUT_EXTENSIONS[format]}` }));
+  const streams = broadcast(processed(), formats.length);
+  const results = await Promise.allSettled(written.map((w, i) => writeOutput(w.format, streams[i]!, join(staging, w.fileName), metadata)));
+  const failed = results.find((r): r is PromiseRejectedResult => r.status === "rejected");
+  if (failed) {
     await removeStored(staging);
-    throw error;
+    throw failed.reason;
   }
   if (dismissed || (await checkDismissed())) {
     await removeStored(staging);
@@ -229,10 +226,6 @@ function outputFormats(inputs: unknown): OutputFormat[] {
   const asked = (inputs as { formats?: unknown } | null)?.formats;
   const valid = Array.isArray(asked) ? asked.filter((f): f is OutputFormat => ALL_FORMATS.includes(f as OutputFormat)) : [];
   return valid.length ? [...new Set(valid)] : ["geojson"];
-}
-
-async function* reread(path: string) {
-  for await (const { feature } of readFeatures([{ path, name: path.split("/").pop()! }])) yield feature;
 }
 
 function plural(n: number, word: string): string {
