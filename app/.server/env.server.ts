@@ -18,6 +18,8 @@ const schema = z.object({
   PORT: z.coerce.number().int().positive().default(3000),
   LOG_LEVEL: z.enum(["fatal", "error", "warn", "info", "debug", "trace", "silent"]).default("info"),
   WORKER_CONCURRENCY: z.coerce.number().int().min(1).max(64).default(1),
+  /** Largest accepted upload in megabytes (read by app/formats/limits.ts; checked here at start). */
+  LISSOM_MAX_UPLOAD_MB: z.coerce.number().positive("LISSOM_MAX_UPLOAD_MB must be a positive number of megabytes").optional(),
 });
 
 export type Env = z.infer<typeof schema> & { demo: boolean; authSecret: string; baseURL: string };

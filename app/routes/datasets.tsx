@@ -1,15 +1,22 @@
-import { Form, Link, data, redirect, useActionData, useNavigation } from "react-router";
+import { Link, data, redirect, useActionData } from "react-router";
+import { ACCEPTED_EXTENSIONS, MAX_UPLOAD_BYTES, formatBytes } from "../formats";
 import { handleDatasetUpload } from "../.server/dataset-upload.server";
 import { listDatasets } from "../.server/datasets.server";
 import { setNotice } from "../.server/flash.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
-import { Card, EmptyState, Notice, PageHeader, buttonClass, inputClass } from "../components/page";
+import { Card, EmptyState, PageHeader } from "../components/page";
+import { UploadForm } from "../components/upload-form";
 import type { Route } from "./+types/datasets";
 
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requirePermission(request, { dataset: ["read"] });
-  return { datasets: await listDatasets(), canUpload: can(user.role, { dataset: ["upload"] }) };
+  return {
+    datasets: await listDatasets(),
+    canUpload: can(user.role, { dataset: ["upload"] }),
+    accept: [...ACCEPTED_EXTENSIONS],
+    maxBytesLabel: formatBytes(MAX_UPLOAD_BYTES),
+  };
 }
 
 export async function action({ request }: Route.ActionArgs) {
@@ -20,28 +27,14 @@ export async function action({ request }: Route.ActionArgs) {
 }
 
 export default function Datasets({ loaderData }: Route.ComponentProps) {
-  const { datasets, canUpload } = loaderData;
+  const { datasets, canUpload, accept, maxBytesLabel } = loaderData;
   const result = useActionData<typeof action>();
-  const uploading = useNavigation().state === "submitting";
   return (
     <>
       <PageHeader title="Datasets" subtitle="Uploaded linework. A re-upload under the same name becomes a new version." />
       {canUpload && (
         <Card title="Upload" className="mb-6">
-          {result?.error && <Notice tone="error">{result.error}</Notice>}
-          <Form method="post" encType="multipart/form-data" className="grid gap-4 sm:grid-cols-[2fr_1fr_auto] sm:items-end">
-            <label className="block text-sm font-medium">
-              File (GeoJSON, newline-delimited GeoJSON, or a zipped Shapefile)
-              <input name="file" type="file" required accept=".geojson,.json,.ndjson,.geojsonl,.geojsons,.zip" className={`mt-1 ${inputClass}`} />
-            </label>
-            <label className="block text-sm font-medium">
-              Name <span className="font-normal text-ink-faint">(optional)</span>
-              <input name="name" placeholder="from the file name" className={`mt-1 ${inputClass}`} />
-            </label>
-            <button type="submit" className={buttonClass} disabled={uploading}>
-              {uploading ? "Uploading…" : "Upload"}
-            </button>
-          </Form>
+          <UploadForm key={result?.error} accept={accept} maxBytesLabel={maxBytesLabel} serverError={result?.error} />
         </Card>
       )}
       {datasets.length === 0 ? (
