@@ -37,7 +37,8 @@ import { EventEmitter } from "node:events";
 import RedisMock from "ioredis-mock";
 import { ReplyError, ScriptRunner, UnknownCommandError, type CommandArg, type ScriptHost } from "./script-runner";
 import { EMULATED_REDIS_VERSION } from "./script-runner";
-import { formatG } from "./number-format";
+import { collectionCommands, popExtreme, WRONGTYPE } from "./collections";
+import { KeySpace, type SharedExpires } from "./store";
 import {
   appendEntry,
   deleteEntries,
@@ -67,6 +68,7 @@ interface MockData {
 }
 interface MockContext {
   modifiedKeyEvents: EventEmitter;
+  expires: SharedExpires;
 }
 interface MockInstance extends EventEmitter {
   data: MockData;
@@ -117,10 +119,12 @@ interface Waiter {
 class DataSpace {
   readonly waiters = new Map<string, Set<Waiter>>();
   readonly clients = new Set<FakeRedis>();
+  readonly keyspace: KeySpace;
   private readonly pending = new Set<string>();
   private scheduled = false;
 
-  constructor(events: EventEmitter) {
+  constructor(events: EventEmitter, expires: SharedExpires) {
+    this.keyspace = new KeySpace(expires, events);
     events.setMaxListeners(0);
     events.on("modified", (key: string) => {
       if (!this.waiters.has(key)) return;
@@ -173,7 +177,6 @@ export function scriptRunner(): ScriptRunner {
 
 // ---------------------------------------------------------------- helpers
 
-const WRONGTYPE = "WRONGTYPE Operation against a key holding the wrong kind of value";
 
 function flattenArgs(args: unknown[]): CommandArg[] {
   const out: CommandArg[] = [];
@@ -196,36 +199,11 @@ function toBuffers(value: unknown): unknown {
   return value;
 }
 
-type ZsetEntry = { score: number; value: string };
-
-function compareMembers(a: ZsetEntry, b: ZsetEntry): number {
-  if (a.score !== b.score) return a.score < b.score ? -1 : 1;
-  return Buffer.compare(Buffer.from(a.value), Buffer.from(b.value));
-}
-
 function parseTimeoutSeconds(text: CommandArg): number {
   const t = Number(String(text));
   if (!Number.isFinite(t)) throw new Error("ERR timeout is not a float or out of range");
   if (t < 0) throw new Error("ERR timeout is negative");
   return t;
-}
-
-/** A score bound: "-inf", "+inf", "(x", "x" with any float syntax Redis accepts. */
-function parseScoreBound(text: CommandArg): { value: number; exclusive: boolean } {
-  let s = String(text);
-  const exclusive = s.startsWith("(");
-  if (exclusive) s = s.slice(1);
-  const lower = s.toLowerCase();
-  let value: number;
-  if (lower === "-inf") value = -Infinity;
-  else if (lower === "+inf" || lower === "inf") value = Infinity;
-  else value = s.trim() === "" ? NaN : Number(s);
-  if (Number.isNaN(value)) throw new Error("ERR min or max is not a float");
-  return { value, exclusive };
-}
-
-function inScoreRange(score: number, min: { value: number; exclusive: boolean }, max: { value: number; exclusive: boolean }): boolean {
-  return (min.exclusive ? score > min.value : score >= min.value) && (max.exclusive ? score < max.value : score <= max.value);
 }
 
 const EMPTYABLE: Record<string, (args: CommandArg[]) => CommandArg[]> = {
@@ -248,6 +226,7 @@ const EMPTYABLE: Record<string, (args: CommandArg[]) => CommandArg[]> = {
 };
 
 function isEmptyContainer(v: unknown): boolean {
+  if (v === undefined) return false;
   if (Array.isArray(v)) return v.length === 0;
   if (v instanceof Map || v instanceof Set) return v.size === 0;
   if (v && typeof v === "object" && !Buffer.isBuffer(v) && !isStoredStream(v)) return Object.keys(v).length === 0;
@@ -296,6 +275,7 @@ export class FakeRedis extends (Mock as MockConstructor) {
   private readonly createdAt = Date.now();
   private readonly blocked = new Set<Waiter>();
   private readonly space: DataSpace;
+  readonly keyspace: KeySpace;
   private readonly overrides: Record<string, Emulator>;
 
   constructor(options: FakeRedisOptions = {}) {
@@ -303,8 +283,12 @@ export class FakeRedis extends (Mock as MockConstructor) {
     this.status = this.connected ? "ready" : "wait";
     this.clientName = typeof options.connectionName === "string" ? options.connectionName : null;
     let space = spaces.get(this.keyData);
-    if (!space) spaces.set(this.keyData, (space = new DataSpace(this.context.modifiedKeyEvents)));
+    if (!space) spaces.set(this.keyData, (space = new DataSpace(this.context.modifiedKeyEvents, this.context.expires)));
     this.space = space;
+    this.keyspace = space.keyspace;
+    this.data = space.keyspace;
+    const initial = (options.data ?? {}) as Record<string, unknown>;
+    for (const [key, value] of Object.entries(initial)) this.keyspace.set(key, value);
     if (this.connected) space.clients.add(this);
     this.overrides = OVERRIDES;
     const self = this as unknown as Record<string, unknown>;
@@ -397,7 +381,7 @@ export class FakeRedis extends (Mock as MockConstructor) {
     if (touched) {
       for (const key of touched(args)) {
         const k = String(key);
-        if (this.data.has(k) && isEmptyContainer(this.data.get(k))) this.data.delete(k);
+        if (isEmptyContainer(this.keyspace.peek(k))) this.keyspace.delete(k);
       }
     }
     return result;
@@ -521,44 +505,26 @@ export class FakeRedis extends (Mock as MockConstructor) {
   // ---- streams
 
   streamAt(key: string, create: boolean): StreamState | null {
-    const v = this.data.get(key);
+    const v = this.keyspace.peek(key);
     if (v === undefined) {
       if (!create) return null;
       const s = new StreamState();
-      this.data.set(key, { __stream: s });
+      this.keyspace.put(key, { __stream: s });
       return s;
     }
     if (!isStoredStream(v)) throw new Error(WRONGTYPE);
     return v.__stream;
   }
 
+  /** Stores a stream (new or changed) and signals the write to blocked readers and WATCH. */
   touch(key: string, s: StreamState): void {
-    this.data.set(key, { __stream: s });
-  }
-
-  zsetEntries(key: string): ZsetEntry[] | null {
-    const v = this.data.get(key);
-    if (v === undefined) return null;
-    if (!(v instanceof Map)) throw new Error(WRONGTYPE);
-    return [...(v as Map<string, ZsetEntry>).values()];
+    const v = this.keyspace.peek(key);
+    if (isStoredStream(v) && v.__stream === s) this.keyspace.touched(key);
+    else this.keyspace.put(key, { __stream: s });
   }
 }
 
 // ---------------------------------------------------------------- command overrides
-
-function popExtreme(fake: FakeRedis, key: string, count: number, max: boolean): (string | number)[] {
-  const v = fake.data.get(key);
-  if (v === undefined) return [];
-  if (!(v instanceof Map)) throw new Error(WRONGTYPE);
-  const map = v as Map<string, ZsetEntry>;
-  const sorted = [...map.values()].sort(compareMembers);
-  if (max) sorted.reverse();
-  const taken = sorted.slice(0, count);
-  for (const e of taken) map.delete(e.value);
-  if (map.size === 0) fake.data.delete(key);
-  else fake.data.set(key, map);
-  return taken.flatMap((e) => [e.value, formatG(e.score, 17)]);
-}
 
 function blockingPop(fake: FakeRedis, args: CommandArg[], max: boolean): unknown {
   if (args.length < 2) throw new Error(`ERR wrong number of arguments for '${max ? "bzpopmax" : "bzpopmin"}' command`);
@@ -571,56 +537,6 @@ function blockingPop(fake: FakeRedis, args: CommandArg[], max: boolean): unknown
     }
     return null;
   });
-}
-
-function rangeByScore(fake: FakeRedis, args: CommandArg[], reverse: boolean): unknown {
-  const [key, first, second, ...rest] = args;
-  const entries = fake.zsetEntries(String(key));
-  const min = parseScoreBound(reverse ? second : first);
-  const max = parseScoreBound(reverse ? first : second);
-  let withScores = false;
-  let offset = 0;
-  let count = -1;
-  for (let i = 0; i < rest.length; i++) {
-    const word = String(rest[i]).toUpperCase();
-    if (word === "WITHSCORES") withScores = true;
-    else if (word === "LIMIT" && i + 2 < rest.length + 0 + 1 && rest[i + 2] !== undefined) {
-      offset = Number(rest[i + 1]);
-      count = Number(rest[i + 2]);
-      if (!Number.isInteger(offset) || !Number.isInteger(count)) throw new Error("ERR value is not an integer or out of range");
-      i += 2;
-    } else throw new Error("ERR syntax error");
-  }
-  if (!entries) return [];
-  let list = entries.filter((e) => inScoreRange(e.score, min, max)).sort(compareMembers);
-  if (reverse) list.reverse();
-  if (offset < 0) return [];
-  list = count < 0 ? list.slice(offset) : list.slice(offset, offset + count);
-  return withScores ? list.flatMap((e) => [e.value, formatG(e.score, 17)]) : list.map((e) => e.value);
-}
-
-function countByScore(fake: FakeRedis, key: CommandArg, minText: CommandArg, maxText: CommandArg): number {
-  const entries = fake.zsetEntries(String(key));
-  const min = parseScoreBound(minText);
-  const max = parseScoreBound(maxText);
-  if (!entries) return 0;
-  return entries.filter((e) => inScoreRange(e.score, min, max)).length;
-}
-
-/** A lex bound: "-", "+", "[x" or "(x". */
-function parseLexBound(text: CommandArg): { value: Buffer | null; exclusive: boolean; infinity: -1 | 0 | 1 } {
-  const s = String(text);
-  if (s === "-") return { value: null, exclusive: false, infinity: -1 };
-  if (s === "+") return { value: null, exclusive: false, infinity: 1 };
-  if (s.startsWith("[") || s.startsWith("(")) return { value: Buffer.from(s.slice(1)), exclusive: s[0] === "(", infinity: 0 };
-  throw new Error("ERR min or max not valid string range item");
-}
-
-function inLexRange(member: string, min: ReturnType<typeof parseLexBound>, max: ReturnType<typeof parseLexBound>): boolean {
-  const m = Buffer.from(member);
-  const aboveMin = min.infinity === -1 || (min.infinity === 0 && (min.exclusive ? Buffer.compare(m, min.value!) > 0 : Buffer.compare(m, min.value!) >= 0));
-  const belowMax = max.infinity === 1 || (max.infinity === 0 && (max.exclusive ? Buffer.compare(m, max.value!) < 0 : Buffer.compare(m, max.value!) <= 0));
-  return aboveMin && belowMax;
 }
 
 const INT64_MIN = -(2n ** 63n);
@@ -649,6 +565,7 @@ function incrementBy(fake: FakeRedis, key: CommandArg, increment: CommandArg | b
 }
 
 const OVERRIDES: Record<string, Emulator> = {
+  ...(collectionCommands as Record<string, Emulator>),
   // -- strings and hashes: ioredis-mock adds "abc" + 1 into NaN instead of refusing.
   incr(key) {
     return incrementBy(this, key, 1n);
@@ -690,62 +607,6 @@ const OVERRIDES: Record<string, Emulator> = {
   bzpopmax(...args) {
     return blockingPop(this, args, true);
   },
-  zpopmin(key, count) {
-    return popExtreme(this, String(key), count === undefined ? 1 : Number(count), false);
-  },
-  zpopmax(key, count) {
-    return popExtreme(this, String(key), count === undefined ? 1 : Number(count), true);
-  },
-  zscore(key, member) {
-    const entries = this.zsetEntries(String(key));
-    const e = entries?.find((x) => x.value === String(member));
-    return e ? formatG(e.score, 17) : null;
-  },
-  zrangebyscore(...args) {
-    return rangeByScore(this, args, false);
-  },
-  zrevrangebyscore(...args) {
-    return rangeByScore(this, args, true);
-  },
-  zcount(key, min, max) {
-    return countByScore(this, key, min, max);
-  },
-  zremrangebyscore(key, minText, maxText) {
-    const v = this.data.get(String(key));
-    if (v === undefined) return 0;
-    if (!(v instanceof Map)) throw new Error(WRONGTYPE);
-    const map = v as Map<string, ZsetEntry>;
-    const min = parseScoreBound(minText);
-    const max = parseScoreBound(maxText);
-    let removed = 0;
-    for (const e of [...map.values()]) {
-      if (inScoreRange(e.score, min, max)) {
-        map.delete(e.value);
-        removed++;
-      }
-    }
-    if (removed > 0) {
-      if (map.size === 0) this.data.delete(String(key));
-      else this.data.set(String(key), map);
-    }
-    return removed;
-  },
-  zlexcount(key, minText, maxText) {
-    const entries = this.zsetEntries(String(key));
-    const min = parseLexBound(minText);
-    const max = parseLexBound(maxText);
-    if (!entries) return 0;
-    return entries.filter((e) => inLexRange(e.value, min, max)).length;
-  },
-  zrange(...args) {
-    const result = MOCK_EMULATORS.zrange.apply(this, args);
-    return withRedisScores(result, args);
-  },
-  zrevrange(...args) {
-    const result = MOCK_EMULATORS.zrevrange.apply(this, args);
-    return withRedisScores(result, args);
-  },
-
   // -- streams
   xadd(key, ...args) {
     const plan = parseXadd(args);
@@ -887,12 +748,6 @@ const BUFFER_OVERRIDES: Record<string, Emulator> = {
     return this.runScript(String(sha), Number(numKeys), args, true);
   },
 };
-
-/** ioredis-mock prints scores with `${score}`; Redis 7.0 replies with "%.17g". */
-function withRedisScores(result: unknown, args: CommandArg[]): unknown {
-  if (!Array.isArray(result) || !args.some((a) => String(a).toUpperCase() === "WITHSCORES")) return result;
-  return result.map((v, i) => (i % 2 === 1 ? formatG(Number(v), 17) : v));
-}
 
 function xrangeCommand(fake: FakeRedis, key: CommandArg, start: CommandArg, end: CommandArg, rest: CommandArg[], reverse: boolean): unknown {
   let count: number | null = null;

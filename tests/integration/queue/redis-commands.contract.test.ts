@@ -87,6 +87,25 @@ describe(`Redis commands on ${queueBackend() === "embedded" ? "the embedded in-m
       expect(await r.zrangebylex(`${P}lex`, "(a", "[c")).toEqual(["b", "c"]);
     });
 
+    it("applies ZADD's NX, XX, GT, LT, CH and INCR options", async () => {
+      const k = `${P}zaddopts`;
+      expect(await r.zadd(k, 5, "a", 7, "b")).toBe(2);
+      expect(await r.zadd(k, "NX", 1, "a", 2, "c")).toBe(1);
+      expect(await r.zscore(k, "a")).toBe("5");
+      expect(await r.zadd(k, "XX", "CH", 6, "a", 9, "new")).toBe(1);
+      expect(await r.zscore(k, "new")).toBeNull();
+      expect(await r.zadd(k, "GT", "CH", 4, "a", 8, "b")).toBe(1);
+      expect(await r.zrange(k, 0, -1, "WITHSCORES")).toEqual(["c", "2", "a", "6", "b", "8"]);
+      expect(await r.zadd(k, "LT", 10, "a")).toBe(0);
+      expect(await r.zadd(k, "INCR", 0.5, "c")).toBe("2.5");
+      expect(await r.zadd(k, "XX", "INCR", 1, "nope")).toBeNull();
+      await expect(r.zadd(k, "NX", "XX", 1, "a")).rejects.toThrow(/XX and NX options at the same time are not compatible/);
+      await expect(r.zadd(k, "x", "a")).rejects.toThrow(/not a valid float/);
+      expect(await r.zrange(k, 0, 1, "REV")).toEqual(["b", "a"]);
+      expect(await r.zremrangebyrank(k, 0, 0)).toBe(1);
+      expect(await r.zrange(k, 0, -1)).toEqual(["a", "b"]);
+    });
+
     it("pops the lowest score first, ties by member", async () => {
       const k = `${P}pop`;
       await r.zadd(k, 3, "x", 1, "b", 1, "a");
@@ -110,6 +129,22 @@ describe(`Redis commands on ${queueBackend() === "embedded" ? "the embedded in-m
       expect(await r.lindex(k, -1)).toBe("c");
       await r.ltrim(k, 1, -1);
       expect(await r.lrange(k, 0, -1)).toEqual(["a", "b", "c"]);
+    });
+
+    it("moves, pops and sets list elements", async () => {
+      const src = `${P}lm:src`;
+      const dst = `${P}lm:dst`;
+      await r.rpush(src, "1", "2", "3", "4");
+      expect(await r.lmove(src, dst, "LEFT", "RIGHT")).toBe("1");
+      expect(await r.lmove(src, dst, "RIGHT", "LEFT")).toBe("4");
+      expect(await r.lrange(dst, 0, -1)).toEqual(["4", "1"]);
+      expect(await r.lpop(src, 5)).toEqual(["2", "3"]);
+      expect(await r.exists(src)).toBe(0);
+      expect(await r.rpop(src)).toBeNull();
+      await r.lset(dst, -1, "one");
+      expect(await r.lrange(dst, -5, 10)).toEqual(["4", "one"]);
+      await expect(r.lset(dst, 5, "x")).rejects.toThrow(/ERR index out of range/);
+      expect(await r.lrange(dst, 3, 1)).toEqual([]);
     });
 
     it("increments hash fields and refuses non-integers", async () => {
