@@ -10,11 +10,12 @@
  * - `createQueueConnectionForWeb()` is for Queue objects used while answering a request: with
  *   a real Redis it disables the offline queue, so a command fails at once while Redis is away
  *   and the route can answer 503 instead of hanging.
+ * - `isRedisReady(connection)` says whether a connection can serve a command now (always true
+ *   for the embedded Redis). BullMQ waits for a connection's first "ready" before it sends
+ *   anything, so a web Queue whose Redis was already down when the process started would wait
+ *   rather than fail: routes check `isRedisReady` first and answer 503 when it is false.
  *
  * Not covered yet:
- * - With a real Redis that is already down when the process starts, BullMQ waits for the
- *   first "ready" before sending anything, so a web Queue created then waits too; callers
- *   should bound their wait (e.g. race with a timeout) until the first connection succeeded.
  * - Redis Cluster and Sentinel URLs.
  */
 import { Redis } from "ioredis";
@@ -47,4 +48,9 @@ export function createQueueConnectionForWeb(opts: { url?: string } = {}): Redis 
 /** Empties the embedded in-memory Redis (no effect on a real Redis). */
 export function resetFakeRedis(): void {
   resetEmbedded();
+}
+
+/** True when `connection` can serve commands now; a route answers 503 when it is false. */
+export function isRedisReady(connection: Redis): boolean {
+  return connection.status === "ready";
 }
