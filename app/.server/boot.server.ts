@@ -4,6 +4,7 @@ import { migrateDatabase } from "./db/client.server";
 import { env } from "./env.server";
 import { requeueLostJobs } from "./jobs.server";
 import { logger } from "./logger.server";
+import { startSchedules } from "./schedules.server";
 import { seedDemo } from "./seed.server";
 
 let booting: Promise<void> | undefined;
@@ -30,6 +31,8 @@ export function boot(): Promise<void> {
     } catch (error) {
       logger.error({ err: error }, "could not check the queue for lost jobs; they will be checked at the next start");
     }
+    // Job schedulers are upserted from here only (one per schedule that is not paused).
+    await startSchedules();
   })();
   return booting;
 }
