@@ -8,7 +8,8 @@
  *   `script-runner.ts` (Lua 5.4 made to look like Redis's 5.1, cjson, cmsgpack, bit, struct,
  *   the `redis` library and Redis's conversion rules), atomically: a script and every command
  *   it calls run synchronously, nothing else can interleave.
- * - Connections built with the same host/port/db share one data space (as ioredis-mock does);
+ * - Connections built with the same host/port/db share one data space (as ioredis-mock does),
+ *   kept in a `KeySpace` (store.ts) that replaces ioredis-mock's copying store;
  *   `duplicate()` returns another FakeRedis on the same data.
  * - `status` follows ioredis ("wait" with lazyConnect, "ready", "end" after quit/disconnect);
  *   `connect()` after a disconnect works again, as BullMQ's reconnect of blocking clients needs.
@@ -18,11 +19,13 @@
  *   script they never block, as in Redis.
  * - Streams (XADD, XLEN, XRANGE, XREVRANGE, XDEL, XTRIM, XREAD) per `streams.ts`; TYPE knows
  *   them.
- * - Fixes to ioredis-mock where BullMQ depends on Redis's behaviour: ZLEXCOUNT (missing),
- *   score replies as Redis 7.0's "%.17g" (ZSCORE, ZPOPMIN/MAX, ZRANGE... WITHSCORES), score
- *   ranges with fractional and exponent bounds, TIME (seconds and microseconds of the clock),
- *   INFO (redis_version and maxmemory_policy), CLIENT SETNAME/GETNAME/ID/LIST/INFO, keys
- *   emptied by ZREM/LREM/LTRIM/RPOPLPUSH/ZREMRANGEBY* being deleted.
+ * - Sorted sets and lists per `collections.ts` (ordered by score then member bytes, scores
+ *   replied as Redis 7.0's "%.17g", score ranges with any float syntax, emptied keys deleted).
+ * - Other fixes to ioredis-mock where BullMQ depends on Redis's behaviour: INCR/INCRBY/DECR/
+ *   DECRBY/HINCRBY refuse non-integers and overflow, GET inside a script returns the stored
+ *   bytes, FLUSHALL/FLUSHDB also forget expiry times, TIME gives seconds and microseconds of
+ *   the clock, INFO gives redis_version and maxmemory_policy, CLIENT SETNAME/GETNAME/ID/LIST/
+ *   INFO, and keys emptied by HDEL/SREM/SPOP/SMOVE are deleted.
  *
  * Not covered yet:
  * - Every command not listed keeps ioredis-mock's behaviour (see its compat.md), including
@@ -35,7 +38,7 @@
  */
 import { EventEmitter } from "node:events";
 import RedisMock from "ioredis-mock";
-import { ReplyError, ScriptRunner, UnknownCommandError, type CommandArg, type ScriptHost } from "./script-runner";
+import { normalizeError, ReplyError, ScriptRunner, UnknownCommandError, type CommandArg, type ScriptHost } from "./script-runner";
 import { EMULATED_REDIS_VERSION } from "./script-runner";
 import { collectionCommands, popExtreme, WRONGTYPE } from "./collections";
 import { KeySpace, type SharedExpires } from "./store";
@@ -193,6 +196,12 @@ function flattenArgs(args: unknown[]): CommandArg[] {
   return out;
 }
 
+/** Errors from commands reach callers as ioredis's ReplyError ("CODE message"), as from a server. */
+function asReplyError(err: unknown): unknown {
+  if (!(err instanceof Error) || err.name === "ReplyError" || err.message === "Connection is closed.") return err;
+  return new ReplyError(normalizeError(err));
+}
+
 function toBuffers(value: unknown): unknown {
   if (typeof value === "string") return Buffer.from(value);
   if (Array.isArray(value)) return value.map(toBuffers);
@@ -315,8 +324,11 @@ export class FakeRedis extends (Mock as MockConstructor) {
       const last = args[args.length - 1];
       const callback = typeof last === "function" ? (args.pop() as (err: unknown, value?: unknown) => void) : undefined;
       const flat = flattenArgs(args);
-      const promise = new Promise<unknown>((resolve) => resolve(this.execute(name, impl, flat))).then((v) =>
-        buffers ? toBuffers(v) : v,
+      const promise = new Promise<unknown>((resolve) => resolve(this.execute(name, impl, flat))).then(
+        (v) => (buffers ? toBuffers(v) : v),
+        (err) => {
+          throw asReplyError(err);
+        },
       );
       if (callback) promise.then((v) => callback(null, v), (e) => callback(e));
       return promise;

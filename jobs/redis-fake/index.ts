@@ -7,7 +7,7 @@
  * fake-redis.ts for the commands and script-runner.ts for the script semantics.
  *
  * Not covered yet: see the lists in fake-redis.ts, script-runner.ts, prelude.ts, cjson.ts,
- * cmsgpack.ts and streams.ts.
+ * cmsgpack.ts, streams.ts, collections.ts, store.ts and lua-vm.ts.
  */
 import type { Redis } from "ioredis";
 import { FakeRedis, type FakeRedisOptions } from "./fake-redis";
