@@ -223,7 +223,8 @@ export function fit(points: readonly (readonly number[])[], options: FitOptions)
     closed,
     verticesIn: points.length,
     corners: corners.map((c) => keptI[c]),
-    maxDeviation: Math.max(maxErr, bulge),
+    // Every segment was proven within the working tolerance; the report's bound is capped by it.
+    maxDeviation: Math.min(tolerance, Math.max(maxErr, bulge)),
     rmsDeviation: Math.sqrt(sumSq / m),
     repairs,
   };
@@ -239,86 +240,125 @@ function line(a: Point, b: Point): Segment {
 }
 
 /**
- * Corner detection at the tolerance's scale: at each vertex, the incoming direction is taken from
- * the point `arm` back along the polyline (or the start) and the outgoing one from the point `arm`
- * ahead; a vertex whose deflection reaches `angle` (radians) and is the largest within `arm` on
- * either side is a corner. Exact reversals (spikes) are always corners.
+ * Corner detection at the tolerance's scale. At each vertex the incoming direction is the
+ * principal direction (least-squares line: the major axis of the points' covariance) of the
+ * polyline behind it up to the point where it first leaves the circle of radius `arm` around the
+ * vertex (the vertices inside plus that exit point), oriented along travel; the outgoing
+ * direction likewise ahead. Straight-line distance, not arc length, bounds the arms, because
+ * noise inflates arc length on dense traces. On a sparse line the arms are simply the adjacent
+ * edges; on a dense noisy trace the line fit averages the noise out (the direction error of a
+ * line fitted to N points over a length a falls like σ·√(12/N)/a). A vertex whose deflection
+ * reaches `angle` (radians) and is the largest within `arm` either side is a corner. Exact
+ * reversals (spikes) are always corners. Arms are walked at most MAX_ARM_VERTICES vertices.
  */
 export function detectCorners(xs: ArrayLike<number>, ys: ArrayLike<number>, closed: boolean, angle: number, arm: number): number[] {
   const n = xs.length;
   if (n < 3) return [];
-  const edges = closed ? n : n - 1;
-  const cum = new Float64Array(edges + 1);
-  for (let i = 0; i < edges; i++) {
-    const j = (i + 1) % n;
-    cum[i + 1] = cum[i] + Math.hypot(xs[j] - xs[i], ys[j] - ys[i]);
-  }
-  const total = cum[edges];
-  // Arc position of virtual vertex j (any integer for rings).
-  const pos = (j: number) => {
-    if (!closed) return cum[j];
-    const w = Math.floor(j / n);
-    return cum[j - w * n] + w * total;
-  };
-  const px = (j: number) => xs[((j % n) + n) % n];
-  const py = (j: number) => ys[((j % n) + n) % n];
-  // Point at arc position s, knowing it lies on edge (j, j+1).
-  const at = (j: number, s: number): [number, number] => {
-    const a = pos(j);
-    const b = pos(j + 1);
-    const f = b > a ? (s - a) / (b - a) : 0;
-    return [px(j) + f * (px(j + 1) - px(j)), py(j) + f * (py(j + 1) - py(j))];
-  };
+  const wrap = (j: number) => ((j % n) + n) % n;
   const defl = new Float64Array(n);
   const first = closed ? 0 : 1;
   const last = closed ? n - 1 : n - 2;
-  let back = closed ? -n : 0;
-  let ahead = 0;
-  const cap = Math.min(arm, closed ? total / 2 : Infinity);
+  const reach = Math.min(MAX_ARM_VERTICES, closed ? Math.floor(n / 2) : n);
+  // Walk from i in direction dir until leaving the circle; returns the principal direction.
+  const armDirection = (i: number, dir: 1 | -1): { d: [number, number]; ex: number; ey: number; exited: boolean } | null => {
+    const ox = xs[i];
+    const oy = ys[i];
+    let c = 1;
+    let sx = 0, sy = 0, sxx = 0, sxy = 0, syy = 0; // relative to the vertex (which is at 0, 0)
+    let ex = 0, ey = 0;
+    let exited = false;
+    let j = i;
+    for (let k = 0; k < reach; k++) {
+      const jn = j + dir;
+      if (!closed && (jn < 0 || jn >= n)) break;
+      const qx = xs[wrap(jn)] - ox;
+      const qy = ys[wrap(jn)] - oy;
+      const dq = Math.hypot(qx, qy);
+      if (dq >= arm) {
+        // Exit point on the edge j→jn, where the distance from the vertex reaches `arm`.
+        const px = xs[wrap(j)] - ox;
+        const py = ys[wrap(j)] - oy;
+        const dx = qx - px, dy = qy - py;
+        const A = dx * dx + dy * dy;
+        const B = 2 * (px * dx + py * dy);
+        const C = px * px + py * py - arm * arm;
+        const disc = Math.max(0, B * B - 4 * A * C);
+        const f = A > 0 ? Math.min(1, Math.max(0, (-B + Math.sqrt(disc)) / (2 * A))) : 1;
+        ex = px + f * dx;
+        ey = py + f * dy;
+        exited = true;
+        break;
+      }
+      ex = qx;
+      ey = qy;
+      j = jn;
+      if (dq > 0) {
+        c++;
+        sx += qx;
+        sy += qy;
+        sxx += qx * qx;
+        sxy += qx * qy;
+        syy += qy * qy;
+      }
+    }
+    if (ex === 0 && ey === 0) return null;
+    c++;
+    sx += ex;
+    sy += ey;
+    sxx += ex * ex;
+    sxy += ex * ey;
+    syy += ey * ey;
+    const mx = sx / c, my = sy / c;
+    const vxx = sxx / c - mx * mx, vxy = sxy / c - mx * my, vyy = syy / c - my * my;
+    // Travel direction of the chord: from the exit point to the vertex when looking back.
+    const tx = dir < 0 ? -ex : ex;
+    const ty = dir < 0 ? -ey : ey;
+    const tl = Math.hypot(tx, ty);
+    if (c <= 2 || !(vxx + vyy > 0)) return { d: [tx / tl, ty / tl], ex, ey, exited };
+    const th = 0.5 * Math.atan2(2 * vxy, vxx - vyy);
+    let dx = Math.cos(th);
+    let dy = Math.sin(th);
+    if (dx * tx + dy * ty < 0) {
+      dx = -dx;
+      dy = -dy;
+    }
+    return { d: [dx, dy], ex, ey, exited };
+  };
   for (let i = first; i <= last; i++) {
-    const si = pos(i);
-    // Back: largest j ≤ i with pos(j) ≤ si − cap.
-    while (back + 1 < i && pos(back + 1) <= si - cap) back++;
-    let bx: number, by: number;
-    if (pos(back) <= si - cap) [bx, by] = at(back, si - cap);
-    else [bx, by] = [px(back), py(back)];
-    if (ahead < i) ahead = i;
-    while (ahead + 1 < (closed ? i + n : n) && pos(ahead + 1) < si + cap) ahead++;
-    let fx: number, fy: number;
-    if (closed || ahead + 1 < n) [fx, fy] = at(ahead, Math.min(si + cap, pos(ahead + 1)));
-    else [fx, fy] = [px(ahead), py(ahead)];
-    const ix = px(i) - bx;
-    const iy = py(i) - by;
-    const ox = fx - px(i);
-    const oy = fy - py(i);
-    const li = Math.hypot(ix, iy);
-    const lo = Math.hypot(ox, oy);
-    if (li === 0 || lo === 0) continue;
-    defl[i] = Math.atan2(Math.abs(ix * oy - iy * ox), ix * ox + iy * oy);
+    const bk = armDirection(i, -1);
+    const fw = armDirection(i, 1);
+    if (!bk || !fw) continue;
+    const din = bk.d;
+    const dout = fw.d;
+    // An arm that ends inside the circle (near an open end) is too short to judge a corner.
+    if (bk.exited && fw.exited) defl[i] = Math.atan2(Math.abs(din[0] * dout[1] - din[1] * dout[0]), din[0] * dout[0] + din[1] * dout[1]);
+    // A reversal within the arms (spike) is always a corner, whatever the line fits say.
+    const ix = -bk.ex, iy = -bk.ey, ox = fw.ex, oy = fw.ey;
+    const chordDefl = Math.atan2(Math.abs(ix * oy - iy * ox), ix * ox + iy * oy);
+    if (chordDefl > Math.PI - 1e-9) defl[i] = Math.PI;
   }
   const candidates: number[] = [];
-  for (let i = first; i <= last; i++) if (defl[i] >= angle || defl[i] > Math.PI - 1e-9) candidates.push(i);
+  for (let i = first; i <= last; i++) if (defl[i] >= angle || defl[i] >= Math.PI) candidates.push(i);
   candidates.sort((a, b) => defl[b] - defl[a] || a - b);
   const taken: number[] = [];
   const suppressed = new Uint8Array(n);
   for (const c of candidates) {
     if (suppressed[c]) continue;
     taken.push(c);
-    // Suppress weaker candidates within `arm` of arc length either side.
-    for (let j = c + 1, k = 0; k < n - 1; j++, k++) {
-      if (!closed && j >= n) break;
-      if (pos(j) - pos(c) >= arm && !(defl[((j % n) + n) % n] > Math.PI - 1e-9)) break;
-      if (pos(j) - pos(c) >= arm) break;
-      suppressed[((j % n) + n) % n] = 1;
-    }
-    for (let j = c - 1, k = 0; k < n - 1; j--, k++) {
-      if (!closed && j < 0) break;
-      if (pos(c) - pos(j) >= arm) break;
-      suppressed[((j % n) + n) % n] = 1;
+    // Suppress weaker candidates until the polyline leaves the circle of radius `arm`.
+    for (const dir of [1, -1]) {
+      for (let j = c + dir, k = 0; k < reach; j += dir, k++) {
+        if (!closed && (j < 0 || j >= n)) break;
+        if (Math.hypot(xs[wrap(j)] - xs[c], ys[wrap(j)] - ys[c]) >= arm) break;
+        suppressed[wrap(j)] = 1;
+      }
     }
   }
   return taken.sort((a, b) => a - b);
 }
+
+/** Longest walk along the polyline for one arm of the corner test. */
+const MAX_ARM_VERTICES = 4096;
 
 /** Fit the run of working vertices a..b (a and b are corners, ends, or the ring's seam). */
 function fitRun(ctx: Ctx, a: number, b: number, smoothRing: boolean): Trial[] {

@@ -1,0 +1,179 @@
+/**
+ * Measure how far a Bézier path and a polyline are from each other, independently of how the
+ * path was made: the same code serves the feature reports' checks and the tests.
+ *
+ *  - pathToPolyline: sup over path points of the distance to the polyline. Branch and bound over
+ *    curve pieces: a piece is within d of an edge when all its control points are (distance to an
+ *    edge is convex; convex hull property), and any curve point gives a lower bound.
+ *  - polylineToPath: sup over polyline points (vertices and edge interiors) of the distance to the
+ *    path. Branch and bound along each edge: the distance to the path is 1-Lipschitz along the
+ *    edge, so on [a, b] it is at most (d(a) + d(b) + |ab|) / 2.
+ * The two-sided Hausdorff distance is the larger of the two (e.g. Alt & Guibas, "Discrete
+ * geometric shapes: matching, interpolation, and approximation", Handbook of Computational
+ * Geometry, 1999, §2). Values returned are upper bounds within `accuracy` of the true value.
+ */
+import { controlBox, subSegment } from "./bezier";
+import { GridIndex } from "./grid";
+import { nearestPoint, pointEdgeDistance } from "./nearest";
+import type { Box, Path, Point, Segment } from "./types";
+
+function extentOf(boxes: Box[]): Box {
+  const e: Box = [Infinity, Infinity, -Infinity, -Infinity];
+  for (const b of boxes) {
+    e[0] = Math.min(e[0], b[0]);
+    e[1] = Math.min(e[1], b[1]);
+    e[2] = Math.max(e[2], b[2]);
+    e[3] = Math.max(e[3], b[3]);
+  }
+  return e;
+}
+
+/** A path prepared for repeated point-distance queries. */
+export class PathDistance {
+  private readonly index: GridIndex;
+  constructor(private readonly path: Path) {
+    const boxes = path.map(controlBox);
+    this.index = new GridIndex(boxes, extentOf(boxes));
+  }
+  distance(p: Point): number {
+    if (this.path.length === 0) return Infinity;
+    return this.index.nearest(p[0], p[1], (id) => nearestPoint(this.path[id], p).distance).distance;
+  }
+}
+
+/** A polyline prepared for repeated point and piece distance queries. */
+export class PolylineDistance {
+  readonly index: GridIndex;
+  constructor(readonly points: readonly Point[]) {
+    const boxes: Box[] = [];
+    for (let i = 0; i + 1 < points.length; i++) {
+      const a = points[i];
+      const b = points[i + 1];
+      boxes.push([Math.min(a[0], b[0]), Math.min(a[1], b[1]), Math.max(a[0], b[0]), Math.max(a[1], b[1])]);
+    }
+    if (points.length === 1) boxes.push([points[0][0], points[0][1], points[0][0], points[0][1]]);
+    this.index = new GridIndex(boxes, extentOf(boxes));
+  }
+  edgeDistance(id: number, p: readonly number[]): number {
+    const a = this.points[id];
+    const b = this.points[Math.min(id + 1, this.points.length - 1)];
+    return pointEdgeDistance(p[0], p[1], a[0], a[1], b[0], b[1]);
+  }
+  distance(p: readonly number[]): number {
+    return this.index.nearest(p[0], p[1], (id) => this.edgeDistance(id, p)).distance;
+  }
+}
+
+export interface OneSided {
+  /** Upper bound of the supremum. */
+  max: number;
+  /** A point where at least max − accuracy is reached. */
+  where: Point;
+}
+
+/** sup over the path of the distance to the polyline (see module comment). */
+export function pathToPolyline(path: Path, polyline: readonly Point[], accuracy: number): OneSided {
+  const poly = new PolylineDistance(polyline);
+  let lower = 0;
+  let where: Point = path.length ? [path[0][0][0], path[0][0][1]] : [0, 0];
+  let upperLeft = 0;
+  type Item = { seg: Segment; ub: number };
+  const bound = (seg: Segment): number => {
+    const q0 = seg[0];
+    const d0 = poly.distance(q0);
+    const dn = poly.distance(seg[seg.length - 1]);
+    if (d0 > lower) {
+      lower = d0;
+      where = [q0[0], q0[1]];
+    }
+    if (dn > lower) {
+      lower = dn;
+      where = [seg[seg.length - 1][0], seg[seg.length - 1][1]];
+    }
+    let diam = 0;
+    for (const q of seg) diam = Math.max(diam, Math.hypot(q[0] - q0[0], q[1] - q0[1]));
+    const r = d0 + diam;
+    let ub = Infinity;
+    for (const id of poly.index.query([q0[0] - r, q0[1] - r, q0[0] + r, q0[1] + r])) {
+      let m = 0;
+      for (const q of seg) {
+        m = Math.max(m, poly.edgeDistance(id, q));
+        if (m >= ub) break;
+      }
+      if (m < ub) ub = m;
+    }
+    return ub;
+  };
+  const stack: Item[] = path.map((seg) => ({ seg, ub: bound(seg) }));
+  let guard = 0;
+  while (stack.length) {
+    const it = stack.pop()!;
+    if (it.ub <= lower + accuracy) continue;
+    let diam = 0;
+    for (const q of it.seg) diam = Math.max(diam, Math.hypot(q[0] - it.seg[0][0], q[1] - it.seg[0][1]));
+    if (diam <= accuracy * 1e-3 || guard++ > 2_000_000) {
+      upperLeft = Math.max(upperLeft, it.ub);
+      continue;
+    }
+    const left = subSegment(it.seg, 0, 0.5);
+    const right = subSegment(it.seg, 0.5, 1);
+    stack.push({ seg: left, ub: bound(left) }, { seg: right, ub: bound(right) });
+  }
+  return { max: Math.max(lower + accuracy, upperLeft), where };
+}
+
+/** sup over the polyline (edges included) of the distance to the path (see module comment). */
+export function polylineToPath(polyline: readonly Point[], path: Path, accuracy: number): OneSided {
+  const dist = new PathDistance(path);
+  let lower = 0;
+  let where: Point = polyline.length ? [polyline[0][0], polyline[0][1]] : [0, 0];
+  const dv = polyline.map((p) => dist.distance(p));
+  dv.forEach((d, i) => {
+    if (d > lower) {
+      lower = d;
+      where = [polyline[i][0], polyline[i][1]];
+    }
+  });
+  for (let i = 0; i + 1 < polyline.length; i++) {
+    const a = polyline[i];
+    const b = polyline[i + 1];
+    const len = Math.hypot(b[0] - a[0], b[1] - a[1]);
+    const stack: [number, number, number, number][] = [[0, 1, dv[i], dv[i + 1]]];
+    while (stack.length) {
+      const [s, t, ds, dt] = stack.pop()!;
+      const ub = 0.5 * (ds + dt + (t - s) * len);
+      if (ub <= lower + accuracy) continue;
+      const m = 0.5 * (s + t);
+      const p: Point = [a[0] + m * (b[0] - a[0]), a[1] + m * (b[1] - a[1])];
+      const dm = dist.distance(p);
+      if (dm > lower) {
+        lower = dm;
+        where = p;
+      }
+      stack.push([s, m, ds, dm], [m, t, dm, dt]);
+    }
+  }
+  return { max: lower + accuracy, where };
+}
+
+export interface Hausdorff {
+  pathToPolyline: number;
+  polylineToPath: number;
+  /** The two-sided Hausdorff distance (upper bound within the accuracy). */
+  value: number;
+}
+
+export function hausdorff(polyline: readonly Point[], path: Path, accuracy: number): Hausdorff {
+  const a = pathToPolyline(path, polyline, accuracy).max;
+  const b = polylineToPath(polyline, path, accuracy).max;
+  return { pathToPolyline: a, polylineToPath: b, value: Math.max(a, b) };
+}
+
+/** Root mean square of the vertex-to-path distances. */
+export function rmsVertexDistance(polyline: readonly Point[], path: Path): number {
+  if (polyline.length === 0) return 0;
+  const dist = new PathDistance(path);
+  let s = 0;
+  for (const p of polyline) s += dist.distance(p) ** 2;
+  return Math.sqrt(s / polyline.length);
+}
