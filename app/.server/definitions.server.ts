@@ -6,10 +6,10 @@ import { DEFAULT_CORNER_ANGLE } from "../geometry/fit";
 import { readFeatures } from "../formats";
 import { QueueUnavailableError } from "../../jobs/queue";
 import { runFeatureStep, type FeatureReport, type StepName } from "../../jobs/steps";
-import { getDataset } from "./datasets.server";
+import { getDataset, listDatasets } from "./datasets.server";
 import { db, schema } from "./db/client.server";
 import { submitJob, type JobRow } from "./jobs.server";
-import { OUTPUT_FORMATS } from "./processes.server";
+import { OUTPUT_FORMAT_LABELS, OUTPUT_FORMATS } from "./processes.server";
 import { storagePath } from "./storage.server";
 
 /**
@@ -546,3 +546,44 @@ function boxOf(parts: number[][][]): [number, number, number, number] | null {
   return Number.isFinite(minX) ? [minX, minY, maxX, maxY] : null;
 }
 
+
+// ---- console helpers ----
+
+/** What the editor needs besides the values: the steps' words, the formats and the datasets to preview on. */
+export async function editorChoices() {
+  const datasets = await listDatasets();
+  return {
+    guide: STEP_GUIDE,
+    formats: OUTPUT_FORMATS.map((id) => ({ id, label: OUTPUT_FORMAT_LABELS[id] })),
+    datasets: datasets.filter((d) => d.latest).map((d) => ({ id: d.id, name: d.name, features: d.latest!.summary.features, version: d.latest!.version })),
+  };
+}
+
+/** The editor's "Preview" button: the steps as written so far, on the chosen feature. */
+export async function previewFromForm(form: FormData): Promise<{ preview: DefinitionPreview } | { previewError: string }> {
+  const steps = parseSteps(definitionFromForm(form).steps);
+  if (!steps.ok) return { previewError: `Fix the steps first: ${steps.message}` };
+  const datasetId = String(form.get("previewDataset") ?? "");
+  const featureText = String(form.get("previewFeature") ?? "0").trim() || "0";
+  const feature = Number(featureText);
+  if (!Number.isInteger(feature) || feature < 0) return { previewError: `Feature: "${featureText}" is not a feature number (0, 1, 2, …).` };
+  try {
+    return { preview: await previewDefinition(steps.data, datasetId, feature) };
+  } catch (error) {
+    if (error instanceof PreviewError) return { previewError: error.message };
+    throw error;
+  }
+}
+
+/** Choices for a schedule's definition: every version of `name` (newest first), then the latest of every other name. */
+export async function definitionChoices(name?: string): Promise<{ id: string; name: string; version: number }[]> {
+  const own = name
+    ? await db()
+        .select({ id: schema.definitions.id, name: schema.definitions.name, version: schema.definitions.version })
+        .from(schema.definitions)
+        .where(eq(schema.definitions.name, name))
+        .orderBy(desc(schema.definitions.version))
+    : [];
+  const others = (await listDefinitions()).filter((d) => d.name !== name).map((d) => ({ id: d.id, name: d.name, version: d.version }));
+  return [...own, ...others];
+}

@@ -9,8 +9,11 @@ import type { Route } from "./+types/console";
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireUser(request);
   const nav = [
+    can(user.role, { job: ["read"] }) && { to: "/overview", label: "Overview" },
     can(user.role, { job: ["read"] }) && { to: "/jobs", label: "Jobs" },
     can(user.role, { dataset: ["read"] }) && { to: "/datasets", label: "Datasets" },
+    can(user.role, { definition: ["read"] }) && { to: "/definitions", label: "Definitions" },
+    can(user.role, { schedule: ["read"] }) && { to: "/schedules", label: "Schedules" },
     { to: "/library", label: "Library" },
   ].filter(Boolean) as { to: string; label: string }[];
   const { notice, headers } = await takeNotice(request);
