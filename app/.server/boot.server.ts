@@ -2,7 +2,7 @@ import type { Worker } from "bullmq";
 import { startJobWorker } from "../../jobs/worker-core";
 import { migrateDatabase } from "./db/client.server";
 import { env } from "./env.server";
-import { requeueLostJobs } from "./jobs.server";
+import { requeueLostJobs, startReconciler } from "./jobs.server";
 import { logger } from "./logger.server";
 import { startSchedules } from "./schedules.server";
 import { seedDemo } from "./seed.server";
@@ -24,6 +24,8 @@ export function boot(): Promise<void> {
       logger.info("Queue: embedded (in-memory Redis fake); jobs run inside this process.");
     } else {
       logger.info("Queue: Redis at REDIS_URL; run `npm run worker` to process jobs.");
+      // What a Redis restart loses is queued again once it is back.
+      startReconciler();
     }
     try {
       const n = await requeueLostJobs();
