@@ -90,10 +90,39 @@ export function entryOptions(queueId: string, policy: RetryPolicy, priority?: nu
   };
 }
 
+/** How long a first command waits for a connection that is still being made. */
+const FIRST_CONNECT_MS = 3000;
+
+/**
+ * True when the queue's Redis can take commands: at once when it is ready; a connection still
+ * being made for the first time gets up to FIRST_CONNECT_MS; one that lost Redis ("reconnecting")
+ * answers false at once.
+ */
+export async function queueReadySoon(): Promise<boolean> {
+  jobQueue();
+  const conn = webConnection();
+  if (isRedisReady(conn)) return true;
+  if (conn.status !== "connecting" && conn.status !== "connect" && conn.status !== "wait") return false;
+  return new Promise<boolean>((resolveReady) => {
+    const done = (ok: boolean) => {
+      clearTimeout(timer);
+      conn.off("ready", onReady);
+      conn.off("reconnecting", onDown);
+      conn.off("end", onDown);
+      resolveReady(ok);
+    };
+    const onReady = () => done(true);
+    const onDown = () => done(false);
+    const timer = setTimeout(() => done(isRedisReady(conn)), FIRST_CONNECT_MS);
+    conn.once("ready", onReady);
+    conn.once("reconnecting", onDown);
+    conn.once("end", onDown);
+  });
+}
+
 /** Fails at once with QueueUnavailableError when Redis is away, else runs `add` within a bound. */
 async function guarded<T>(add: () => Promise<T>): Promise<T> {
-  jobQueue();
-  if (!isRedisReady(webConnection())) throw new QueueUnavailableError(new Error(`Redis connection is ${webConnection().status}`));
+  if (!(await queueReadySoon())) throw new QueueUnavailableError(new Error(`Redis connection is ${webConnection().status}`));
   let timer: NodeJS.Timeout | undefined;
   try {
     return await Promise.race([
@@ -180,7 +209,7 @@ export async function queueHealth(): Promise<{ ok: boolean; detail: string }> {
   try {
     jobQueue();
     const conn = webConnection();
-    if (!isRedisReady(conn)) return { ok: false, detail: `Redis is not reachable (connection ${conn.status})` };
+    if (!(await queueReadySoon())) return { ok: false, detail: `Redis is not reachable (connection ${conn.status})` };
     let timer: NodeJS.Timeout | undefined;
     const pong = await Promise.race([
       conn.ping(),

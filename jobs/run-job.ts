@@ -75,18 +75,19 @@ const CAUTION =
 export async function runJob(jobId: string, ctx: RunContext = {}): Promise<RunOutcome> {
   const job = await loadJob(jobId);
   if (job.status === "dismissed" || job.status === "successful") return job.status === "dismissed" ? "dismissed" : "superseded";
-  const source = await loadSource(job);
-  const settings = runnerSettings();
   const existingChunks = await chunkRows(job.id);
   if (existingChunks.length > 0 && (await chunkInputsPresent(job.id, existingChunks))) {
     // A rerun after the job was already cut: queue what is left of it.
     await enqueueChunks(job.id);
     return "fanned-out";
   }
+  const attempt = await beginAttempt(job.id);
+  const source = await loadSource(job);
+  const settings = runnerSettings();
   if (!job.parentId && settings.LISSOM_FANOUT_VERTICES > 0 && source.vertices > settings.LISSOM_FANOUT_VERTICES) {
-    return splitJob(job, source, settings.LISSOM_CHUNK_VERTICES, ctx);
+    return splitJob(job, attempt, source, settings.LISSOM_CHUNK_VERTICES, ctx);
   }
-  return runWhole(job, source, ctx);
+  return runWhole(job, attempt, source, ctx);
 }
 
 /** Runs one chunk of a fanned-out job into its chunk output file. */
@@ -96,9 +97,9 @@ export async function runChunk(chunkId: string, ctx: RunContext = {}): Promise<R
   const parent = await loadJob(chunk.parentId);
   if (parent.status === "dismissed" || chunk.status === "dismissed") return "dismissed";
   if (chunk.status === "successful" || parent.status === "successful") return "superseded";
-  const source = await loadSource(parent);
   const d = db();
   const attempt = await beginAttempt(chunk.id);
+  const source = await loadSource(parent);
   const started = new Date();
   const label = `Chunk ${chunk.chunkIndex! + 1}`;
   await d.update(schema.jobs).set({ status: "running", startedAt: chunk.startedAt ?? started, progress: 0, featuresDone: 0, message: null, updatedAt: started }).where(eq(schema.jobs.id, chunk.id));
@@ -112,7 +113,8 @@ export async function runChunk(chunkId: string, ctx: RunContext = {}): Promise<R
 
   const staging = await storage(() => makeStagingDir());
   const reports: FeatureReport[] = [];
-  const run = await runTask(
+  const run = await runTaskInto(
+    staging,
     ctx,
     { kind: "process", input: { chunkFile: storagePath(splitFile(parent.id, chunk.chunkIndex!)), crs: source.crs }, steps: job_steps(parent), output: { kind: "chunk", path: join(staging, "output.ndjson") }, stepsModule: ctx.stepsModule },
     { job: chunk, parent, log: chunkLog, reports, total: chunk.featuresTotal },
@@ -169,14 +171,14 @@ export async function runMerge(jobId: string, ctx: RunContext = {}): Promise<Run
     await log.error(`Failed: ${message}`);
     return "failed";
   }
-  const source = await loadSource(job);
   const running = await d.query.attempts.findFirst({ where: and(eq(schema.attempts.jobId, job.id), eq(schema.attempts.status, "running")), orderBy: [desc(schema.attempts.number)] });
   const attempt = running?.number ?? (await beginAttempt(job.id));
+  const source = await loadSource(job);
   await d.update(schema.jobs).set({ status: "running", updatedAt: new Date() }).where(and(eq(schema.jobs.id, job.id), sql`${schema.jobs.status} != 'dismissed'`));
   await log.info(`Merging ${plural(chunks.length, "chunk")} in input order.`);
   const staging = await storage(() => makeStagingDir());
   const output = finalOutput(job, source, attempt, staging);
-  const run = await runTask(ctx, { kind: "merge", chunkFiles: chunks.map((c) => storagePath(`${chunkDir(job.id, c.chunkIndex!)}/output.ndjson`)), output }, { job, parent: null, log, reports: [], total: null, quiet: true });
+  const run = await runTaskInto(staging, ctx, { kind: "merge", chunkFiles: chunks.map((c) => storagePath(`${chunkDir(job.id, c.chunkIndex!)}/output.ndjson`)), output }, { job, parent: null, log, reports: [], total: null, quiet: true });
   if (run.outcome !== "done") {
     await removeStored(staging);
     return finishEarly(job, attempt, run.outcome, log);
@@ -209,9 +211,8 @@ interface Source {
   inputFiles: { name: string; path: string }[];
 }
 
-async function runWhole(job: JobRow, source: Source, ctx: RunContext): Promise<RunOutcome> {
+async function runWhole(job: JobRow, attempt: number, source: Source, ctx: RunContext): Promise<RunOutcome> {
   const d = db();
-  const attempt = await beginAttempt(job.id);
   const started = new Date();
   await d
     .update(schema.jobs)
@@ -224,7 +225,8 @@ async function runWhole(job: JobRow, source: Source, ctx: RunContext): Promise<R
   const staging = await storage(() => makeStagingDir());
   const output = finalOutput(job, source, attempt, staging);
   const reports: FeatureReport[] = [];
-  const run = await runTask(
+  const run = await runTaskInto(
+    staging,
     ctx,
     { kind: "process", input: { files: source.inputFiles, crs: source.crs }, steps, output, stepsModule: ctx.stepsModule },
     { job, parent: null, log, reports, total: source.features },
@@ -239,9 +241,8 @@ async function runWhole(job: JobRow, source: Source, ctx: RunContext): Promise<R
   return "successful";
 }
 
-async function splitJob(job: JobRow, source: Source, chunkVertices: number, ctx: RunContext): Promise<RunOutcome> {
+async function splitJob(job: JobRow, attempt: number, source: Source, chunkVertices: number, ctx: RunContext): Promise<RunOutcome> {
   const d = db();
-  const attempt = await beginAttempt(job.id);
   const started = new Date();
   await d
     .update(schema.jobs)
@@ -252,7 +253,7 @@ async function splitJob(job: JobRow, source: Source, chunkVertices: number, ctx:
     `Attempt ${attempt} started: ${source.vertices.toLocaleString("en-GB")} vertices is above the fan-out threshold, so the dataset is cut into chunks of about ${chunkVertices.toLocaleString("en-GB")} vertices that run as separate queue entries.`,
   );
   const staging = await storage(() => makeStagingDir());
-  const run = await runTask(ctx, { kind: "split", input: { files: source.inputFiles, crs: source.crs }, dir: staging, chunkVertices }, { job, parent: null, log, reports: [], total: null, quiet: true });
+  const run = await runTaskInto(staging, ctx, { kind: "split", input: { files: source.inputFiles, crs: source.crs }, dir: staging, chunkVertices }, { job, parent: null, log, reports: [], total: null, quiet: true });
   if (run.outcome !== "done") {
     await removeStored(staging);
     return finishEarly(job, attempt, run.outcome, log);
@@ -338,6 +339,16 @@ interface Watch {
 }
 
 type TaskRun = { outcome: "done"; result: PipelineResult } | { outcome: "dismissed" | "stopped" };
+
+/** `runTask` for a task writing into `staging`: the folder goes if the task fails. */
+async function runTaskInto(staging: string, ctx: RunContext, task: PipelineTask, watch: Watch): Promise<TaskRun> {
+  try {
+    return await runTask(ctx, task, watch);
+  } catch (error) {
+    await removeStored(staging);
+    throw error;
+  }
+}
 
 async function runTask(ctx: RunContext, task: PipelineTask, watch: Watch): Promise<TaskRun> {
   const control = ctx.control ?? newControl();

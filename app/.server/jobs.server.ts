@@ -1,6 +1,6 @@
 import { stat } from "node:fs/promises";
 import { and, asc, count, desc, eq, gt, inArray, isNull, lt, ne, type SQL } from "drizzle-orm";
-import { QueueUnavailableError, entryState, queueReady, removeQueued } from "../../jobs/queue";
+import { QueueUnavailableError, entryState, queueReady, queueReadySoon, removeQueued } from "../../jobs/queue";
 import { chunkRows, splitFile } from "../../jobs/run-job";
 import { enqueueChunks, enqueueRow } from "../../jobs/runner/enqueue";
 import { runnerSettings } from "../../jobs/runner/settings";
@@ -272,7 +272,7 @@ export async function retryFailedChunks(jobId: string, userEmail: string) {
 export async function requeueLostJobs(options: { minAgeMs?: number } = {}): Promise<number> {
   const d = db();
   // BullMQ would wait for a Redis that is away instead of failing: do not start then.
-  if (!queueReady()) throw new QueueUnavailableError(new Error("Redis is not reachable"));
+  if (!(await queueReadySoon())) throw new QueueUnavailableError(new Error("Redis is not reachable"));
   const cutoff = new Date(Date.now() - (options.minAgeMs ?? 0));
   const open = await d.query.jobs.findMany({
     where: and(topLevel, inArray(schema.jobs.status, ["accepted", "running"]), options.minAgeMs ? lt(schema.jobs.updatedAt, cutoff) : undefined),
