@@ -1,4 +1,4 @@
-import { useMemo } from "react";
+import { useEffect, useMemo, useRef, useState } from "react";
 
 interface Props {
   /** The feature's lines before the steps, per part, [x, y] in the dataset's coordinates. */
@@ -14,7 +14,7 @@ interface Props {
 }
 
 /**
- * Input against result for one feature: the input in a light dashed line, the result on top
+ * Input against result for one feature: the input as a light wide band, the result on top
  * in the action colour, and the control polygon of each curve segment as faint handles.
  */
 export function PreviewPlot({ input, result, controlPoints = [], bbox, geographic, height = 320 }: Props) {
@@ -27,36 +27,73 @@ export function PreviewPlot({ input, result, controlPoints = [], bbox, geographi
     const pad = Math.max(w, h) * 0.05;
     const xy = ([x, y]: number[]): [number, number] => [(x! - minX) * kx, maxY - y!];
     const at = (p: number[]) => xy(p).map((v) => v.toPrecision(8)).join(" ");
-    return { view: `${-pad} ${-pad} ${w + 2 * pad} ${h + 2 * pad}`, unit: Math.max(w, h) / 400, at, xy };
+    return { view: { x: -pad, y: -pad, w: w + 2 * pad, h: h + 2 * pad }, at, xy };
   }, [bbox, geographic]);
-  if (!frame) return <p className="text-sm text-ink-soft">Nothing to draw: the feature has no lines.</p>;
-  const path = (parts: number[][][]) => parts.map((part) => part.map((p, i) => `${i === 0 ? "M" : "L"}${frame.at(p)}`).join("")).join("");
-  const u = frame.unit;
+  // Wheel to zoom, drag to pan (as in LineworkPlot): deviations of a few metres on a line of
+  // some kilometres only show up close.
+  const [view, setView] = useState(frame?.view);
+  useEffect(() => setView(frame?.view), [frame]);
+  const drag = useRef<{ x: number; y: number } | null>(null);
+  const svgRef = useRef<SVGSVGElement>(null);
+  const paths = useMemo(() => {
+    if (!frame) return null;
+    const path = (parts: number[][][]) => parts.map((part) => part.map((p, i) => `${i === 0 ? "M" : "L"}${frame.at(p)}`).join("")).join("");
+    return { input: path(input), result: path(result), handles: controlPoints.map((seg) => path([seg])) };
+  }, [frame, input, result, controlPoints]);
+  if (!frame || !view || !paths) return <p className="text-sm text-ink-soft">Nothing to draw: the feature has no lines.</p>;
+  const u = Math.max(view.w, view.h) / 400;
+
+  function onWheel(e: React.WheelEvent<SVGSVGElement>) {
+    const rect = svgRef.current!.getBoundingClientRect();
+    const fx = (e.clientX - rect.left) / rect.width;
+    const fy = (e.clientY - rect.top) / rect.height;
+    const k = e.deltaY > 0 ? 1.25 : 1 / 1.25;
+    setView((v) => v && { x: v.x + v.w * fx * (1 - k), y: v.y + v.h * fy * (1 - k), w: v.w * k, h: v.h * k });
+  }
+  function onPointerMove(e: React.PointerEvent<SVGSVGElement>) {
+    if (!drag.current) return;
+    const rect = svgRef.current!.getBoundingClientRect();
+    const dx = ((e.clientX - drag.current.x) / rect.width) * view!.w;
+    const dy = ((e.clientY - drag.current.y) / rect.height) * view!.h;
+    drag.current = { x: e.clientX, y: e.clientY };
+    setView((v) => v && { ...v, x: v.x - dx, y: v.y - dy });
+  }
   return (
-    <figure>
+    <figure className="relative">
       <svg
+        ref={svgRef}
         role="img"
         aria-label="The feature before and after the steps"
-        viewBox={frame.view}
+        viewBox={`${view.x} ${view.y} ${view.w} ${view.h}`}
         preserveAspectRatio="xMidYMid meet"
-        className="w-full rounded-md border border-rule bg-paper"
+        className="w-full cursor-grab touch-none rounded-md border border-rule bg-paper active:cursor-grabbing"
         style={{ height }}
+        onWheel={onWheel}
+        onPointerDown={(e) => {
+          drag.current = { x: e.clientX, y: e.clientY };
+          (e.target as Element).setPointerCapture?.(e.pointerId);
+        }}
+        onPointerMove={onPointerMove}
+        onPointerUp={() => (drag.current = null)}
       >
         {controlPoints.map((seg, i) => (
           <g key={i} stroke="var(--color-ochre-600)" strokeOpacity={0.45} fill="var(--color-ochre-600)" fillOpacity={0.6}>
-            <path d={seg.map((p, j) => `${j === 0 ? "M" : "L"}${frame.at(p)}`).join("")} fill="none" strokeWidth={u * 0.6} />
+            <path d={paths.handles[i]} fill="none" strokeWidth={u * 0.6} />
             {seg.slice(1, -1).map((p, j) => {
               const [x, y] = frame.xy(p);
               return <circle key={j} cx={x} cy={y} r={u * 1.4} stroke="none" />;
             })}
           </g>
         ))}
-        <path d={path(input)} fill="none" stroke="var(--color-ink-faint)" strokeWidth={u * 1.2} strokeDasharray={`${u * 3} ${u * 2}`} strokeLinejoin="round" />
-        <path d={path(result)} fill="none" stroke="var(--color-tide-600)" strokeWidth={u * 1.6} strokeLinejoin="round" />
+        <path d={paths.input} fill="none" stroke="var(--color-clay-600)" strokeOpacity={0.35} strokeWidth={u * 4} strokeLinejoin="round" strokeLinecap="round" />
+        <path d={paths.result} fill="none" stroke="var(--color-tide-600)" strokeWidth={u * 1.6} strokeLinejoin="round" />
       </svg>
+      <button type="button" onClick={() => setView(frame.view)} className="absolute right-2 top-2 rounded bg-card/90 px-2 py-1 text-xs text-ink-soft shadow">
+        Reset view
+      </button>
       <figcaption className="mt-2 flex flex-wrap gap-4 text-xs text-ink-soft">
         <span className="flex items-center gap-1.5">
-          <svg width="22" height="6" aria-hidden="true"><line x1="0" y1="3" x2="22" y2="3" stroke="var(--color-ink-faint)" strokeWidth="2" strokeDasharray="4 3" /></svg>
+          <svg width="22" height="8" aria-hidden="true"><line x1="2" y1="4" x2="20" y2="4" stroke="var(--color-clay-600)" strokeOpacity="0.35" strokeWidth="5" strokeLinecap="round" /></svg>
           input
         </span>
         <span className="flex items-center gap-1.5">
@@ -69,6 +106,7 @@ export function PreviewPlot({ input, result, controlPoints = [], bbox, geographi
             control points
           </span>
         )}
+        <span>wheel to zoom, drag to move</span>
       </figcaption>
     </figure>
   );

@@ -26,6 +26,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     schedules: schedules.filter((s) => s.definitionName === definition.name),
     datasets: datasets.filter((d) => d.latest).map((d) => ({ id: d.id, name: d.name, version: d.latestVersion })),
     formatLabels: OUTPUT_FORMAT_LABELS as Record<string, string>,
+    guide: STEP_GUIDE as Record<string, { title: string; params: Record<string, { label: string }> }>,
     may: { run: canRun, edit: can(user.role, { definition: ["write"] }), schedule: can(user.role, { schedule: ["write"] }) },
   };
 }
@@ -49,14 +50,13 @@ export async function action({ request, params }: Route.ActionArgs) {
   throw redirect(`/jobs/${outcome.job.id}`, { headers: await setNotice("Job accepted and queued.") });
 }
 
-function describeParams(step: keyof typeof STEP_GUIDE, params: Record<string, unknown>): string {
-  const guide = STEP_GUIDE[step]?.params as Record<string, { label: string }> | undefined;
-  const parts = Object.entries(params).map(([k, v]) => `${guide?.[k]?.label ?? k}: ${String(v)}`);
+function describeParams(labels: Record<string, { label: string }> | undefined, params: Record<string, unknown>): string {
+  const parts = Object.entries(params).map(([k, v]) => `${labels?.[k]?.label ?? k}: ${String(v)}`);
   return parts.join(" · ") || "defaults";
 }
 
 export default function DefinitionPage({ loaderData, actionData }: Route.ComponentProps) {
-  const { definition, jobs, schedules, datasets, formatLabels, may } = loaderData;
+  const { definition, jobs, schedules, datasets, formatLabels, guide, may } = loaderData;
   const busy = useNavigation().state === "submitting";
   const latest = definition.versions[0]!;
   const isLatest = latest.id === definition.id;
@@ -101,10 +101,10 @@ export default function DefinitionPage({ loaderData, actionData }: Route.Compone
               {definition.steps.map((s, i) => (
                 <li key={i}>
                   <span className="font-medium">
-                    {i + 1}. {STEP_GUIDE[s.step]?.title ?? s.step}
+                    {i + 1}. {guide[s.step]?.title ?? s.step}
                   </span>{" "}
                   <span className="text-ink-faint">({s.step})</span>
-                  <p className="text-ink-soft">{describeParams(s.step, s.params)}</p>
+                  <p className="text-ink-soft">{describeParams(guide[s.step]?.params, s.params)}</p>
                 </li>
               ))}
             </ol>

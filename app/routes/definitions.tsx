@@ -1,5 +1,5 @@
 import { Link } from "react-router";
-import { listDefinitions, STEP_GUIDE } from "../.server/definitions.server";
+import { listDefinitions, type StepInput } from "../.server/definitions.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
 import { EmptyState, PageHeader, buttonClass } from "../components/page";
@@ -15,7 +15,7 @@ export async function loader({ request }: Route.LoaderArgs) {
       version: d.version,
       versionCount: d.versionCount,
       description: d.description,
-      steps: (d.steps as { step: keyof typeof STEP_GUIDE }[]).map((s) => s.step),
+      steps: (d.steps as StepInput[]).map((s) => s.step),
       formats: d.formats as string[],
       createdAt: d.createdAt,
       createdByEmail: d.createdByEmail,
