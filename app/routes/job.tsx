@@ -4,7 +4,7 @@ import { z } from "zod";
 import { QueueUnavailableError } from "../../jobs/queue";
 import { setNotice } from "../.server/flash.server";
 import { requirePermission } from "../.server/guards.server";
-import { JobStateError, dismissJob, getJob, jobAttempts, jobFeatureReports, jobLogEntries, jobOutputs, retryJob } from "../.server/jobs.server";
+import { JobStateError, dismissJob, getJob, jobAttempts, jobChunks, jobFeatureReports, jobLogEntries, jobOutputs, retryFailedChunks, retryJob } from "../.server/jobs.server";
 import { publishOutput } from "../.server/outputs.server";
 import { can } from "../.server/permissions.server";
 import { Caution } from "../components/caution";
@@ -17,13 +17,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const user = await requirePermission(request, { job: ["read"] });
   const job = await getJob(params.jobId);
   if (!job) throw data({ detail: "There is no job with this id." }, { status: 404 });
-  const [attempts, log, reports, outputs] = await Promise.all([jobAttempts(job.id), jobLogEntries(job.id), jobFeatureReports(job.id), jobOutputs(job.id)]);
+  const [attempts, log, reports, outputs, chunks] = await Promise.all([jobAttempts(job.id), jobLogEntries(job.id), jobFeatureReports(job.id), jobOutputs(job.id), jobChunks(job.id)]);
   return {
     job,
     attempts,
     log,
     reports,
     outputs,
+    chunks,
     may: {
       dismiss: can(user.role, { job: ["cancel"] }),
       retry: can(user.role, { job: ["retry"] }),
@@ -35,6 +36,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 const Intent = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("dismiss") }),
   z.object({ intent: z.literal("retry") }),
+  z.object({ intent: z.literal("retry-chunks") }),
   z.object({ intent: z.literal("publish"), outputId: z.string().min(1) }),
   z.object({ intent: z.literal("unpublish"), outputId: z.string().min(1) }),
 ]);
@@ -55,6 +57,11 @@ export async function action({ request, params }: Route.ActionArgs) {
       if (!(await retryJob(params.jobId, user.email))) throw data({ detail: "No such job." }, { status: 404 });
       throw redirect(here, { headers: await setNotice("Job queued again as a new attempt.") });
     }
+    if (form.intent === "retry-chunks") {
+      const user = await requirePermission(request, { job: ["retry"] });
+      if (!(await retryFailedChunks(params.jobId, user.email))) throw data({ detail: "No such job." }, { status: 404 });
+      throw redirect(here, { headers: await setNotice("The failed chunks are queued again; the job is merged once they finish.") });
+    }
     const user = await requirePermission(request, { output: ["publish"] });
     const publish = form.intent === "publish";
     if (!(await publishOutput(form.outputId, user.id, publish))) throw data({ detail: "No such output." }, { status: 404 });
@@ -70,7 +77,8 @@ type LiveLine = { id: number; time: string; level: string; message: string; feat
 type Live = { status: string; progress: number; featuresDone: number; featuresTotal: number | null; message: string | null; log: LiveLine[] };
 
 export default function JobPage({ loaderData, actionData }: Route.ComponentProps) {
-  const { job, attempts, reports, outputs, may } = loaderData;
+  const { job, attempts, reports, outputs, chunks, may } = loaderData;
+  const unfinishedChunks = chunks.filter((c) => c.status !== "successful").length;
   const fetcher = useFetcher<Live>();
   const revalidator = useRevalidator();
   const [extraLog, setExtraLog] = useState<LiveLine[]>([]);
@@ -115,9 +123,18 @@ export default function JobPage({ loaderData, actionData }: Route.ComponentProps
                 <button name="intent" value="dismiss" className={quietButtonClass}>Dismiss</button>
               </Form>
             )}
+            {may.retry && (status === "failed" || status === "dismissed") && unfinishedChunks > 0 && (
+              <Form method="post">
+                <button name="intent" value="retry-chunks" className={buttonClass}>
+                  Retry failed chunks ({unfinishedChunks})
+                </button>
+              </Form>
+            )}
             {may.retry && (status === "failed" || status === "dismissed") && (
               <Form method="post">
-                <button name="intent" value="retry" className={buttonClass}>Retry</button>
+                <button name="intent" value="retry" className={unfinishedChunks > 0 ? quietButtonClass : buttonClass}>
+                  {chunks.length > 0 ? "Retry whole job" : "Retry"}
+                </button>
               </Form>
             )}
           </>
@@ -138,6 +155,41 @@ export default function JobPage({ loaderData, actionData }: Route.ComponentProps
             </div>
             {(live?.message ?? job.message) && <p className="mt-3 text-sm text-ink-soft">{live?.message ?? job.message}</p>}
           </Card>
+          {chunks.length > 0 && (
+            <Card title={`Chunks (${chunks.length})`}>
+              <p className="mb-2 text-xs text-ink-soft">This dataset was cut into chunks that run as separate queue entries, so several workers share it; the outputs are merged in input order.</p>
+              <div className="max-h-72 overflow-y-auto">
+                <table className="w-full text-sm" data-testid="job-chunks">
+                  <thead className="sticky top-0 bg-card text-left text-ink-soft">
+                    <tr>
+                      <th className="py-1 pr-3 font-medium">#</th>
+                      <th className="py-1 pr-3 font-medium">Features</th>
+                      <th className="py-1 pr-3 font-medium">Progress</th>
+                      <th className="py-1 pr-3 text-right font-medium">Attempts</th>
+                      <th className="py-1 font-medium">Status</th>
+                    </tr>
+                  </thead>
+                  <tbody>
+                    {chunks.map((c) => (
+                      <tr key={c.id} className="border-t border-rule align-top">
+                        <td className="py-1 pr-3 tabular-nums">{c.index + 1}</td>
+                        <td className="py-1 pr-3 tabular-nums">
+                          {c.featureStart}–{c.featureEnd - 1}
+                        </td>
+                        <td className="py-1 pr-3 tabular-nums">
+                          {c.featuresDone.toLocaleString()} / {c.featuresTotal?.toLocaleString() ?? "?"}
+                        </td>
+                        <td className="py-1 pr-3 text-right tabular-nums">{c.attempts}</td>
+                        <td className="py-1">
+                          <StatusBadge status={c.status} /> {c.status !== "successful" && c.message && <span className="text-xs text-ink-soft">{c.message}</span>}
+                        </td>
+                      </tr>
+                    ))}
+                  </tbody>
+                </table>
+              </div>
+            </Card>
+          )}
           <Card title="Log">
             <ol className="max-h-80 space-y-0.5 overflow-y-auto font-mono text-xs" aria-live="polite">
               {log.length === 0 && <li className="text-ink-faint">No entries yet.</li>}
