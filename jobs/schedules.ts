@@ -1,4 +1,7 @@
 import { Queue, Worker, type Job } from "bullmq";
+import type { Redis } from "ioredis";
+import { logger } from "../app/.server/logger.server";
+import { QueueUnavailableError, queuePrefix } from "./queue";
 import { createQueueConnectionForWeb, createRedisConnection } from "./redis";
 
 /**
@@ -26,15 +29,47 @@ export interface SchedulerSpec {
 }
 
 let queue: Queue<ScheduleTickData> | undefined;
+let connection: Redis | undefined;
+
+/** How long a change of a schedule waits for Redis before it is refused. */
+const REDIS_TIMEOUT_MS = 5000;
 
 export function scheduleQueue(): Queue<ScheduleTickData> {
-  queue ??= new Queue<ScheduleTickData>(SCHEDULE_QUEUE_NAME, { connection: createQueueConnectionForWeb() });
+  if (!queue) {
+    connection = createQueueConnectionForWeb();
+    let lastLogged = 0;
+    connection.on("error", (error: Error) => {
+      if (Date.now() - lastLogged > 60_000) {
+        lastLogged = Date.now();
+        logger.warn({ err: error }, "schedule queue: Redis is not reachable");
+      }
+    });
+    queue = new Queue<ScheduleTickData>(SCHEDULE_QUEUE_NAME, { connection, prefix: queuePrefix() });
+    queue.on("error", () => undefined); // the connection logs them
+  }
   return queue;
+}
+
+/** Runs a queue command within REDIS_TIMEOUT_MS; failures become QueueUnavailableError. */
+async function bounded<T>(what: () => Promise<T>): Promise<T> {
+  let timer: NodeJS.Timeout | undefined;
+  try {
+    return await Promise.race([
+      what(),
+      new Promise<never>((_, reject) => {
+        timer = setTimeout(() => reject(new Error(`Redis did not answer within ${REDIS_TIMEOUT_MS / 1000} s`)), REDIS_TIMEOUT_MS);
+      }),
+    ]);
+  } catch (error) {
+    throw error instanceof QueueUnavailableError ? error : new QueueUnavailableError(error);
+  } finally {
+    clearTimeout(timer);
+  }
 }
 
 /** Creates or replaces the job scheduler of one schedule. */
 export async function upsertScheduler(spec: SchedulerSpec): Promise<void> {
-  await scheduleQueue().upsertJobScheduler(
+  await bounded(() => scheduleQueue().upsertJobScheduler(
     spec.id,
     { pattern: spec.cron, tz: spec.timezone },
     {
@@ -42,12 +77,12 @@ export async function upsertScheduler(spec: SchedulerSpec): Promise<void> {
       data: { scheduleId: spec.id },
       opts: { attempts: 3, backoff: { type: "exponential", delay: 1000 }, removeOnComplete: { count: 200 }, removeOnFail: { count: 1000 } },
     },
-  );
+  ));
 }
 
 /** Removes the job scheduler of one schedule (paused or deleted); nothing if it had none. */
 export async function removeScheduler(id: string): Promise<void> {
-  await scheduleQueue().removeJobScheduler(id);
+  await bounded(() => scheduleQueue().removeJobScheduler(id));
 }
 
 /**
@@ -55,13 +90,12 @@ export async function removeScheduler(id: string): Promise<void> {
  * deleted or paused while this process was away).
  */
 export async function syncSchedulers(active: SchedulerSpec[]): Promise<{ upserted: number; removed: number }> {
-  const q = scheduleQueue();
   const keep = new Set(active.map((s) => s.id));
   let removed = 0;
-  const existing = await q.getJobSchedulers(0, -1);
+  const existing = await bounded(() => scheduleQueue().getJobSchedulers(0, -1));
   for (const s of existing) {
     if (!keep.has(s.key)) {
-      await q.removeJobScheduler(s.key);
+      await removeScheduler(s.key);
       removed++;
     }
   }
@@ -79,6 +113,7 @@ export function tickTime(job: Job<ScheduleTickData>): Date {
 export function startScheduleWorker(onTick: (scheduleId: string, due: Date) => Promise<unknown>, onError: (error: Error) => void): Worker<ScheduleTickData> {
   const worker = new Worker<ScheduleTickData>(SCHEDULE_QUEUE_NAME, async (job) => onTick(job.data.scheduleId, tickTime(job)), {
     connection: createRedisConnection(),
+    prefix: queuePrefix(),
     concurrency: 1,
   });
   worker.on("error", onError);
@@ -88,4 +123,5 @@ export function startScheduleWorker(onTick: (scheduleId: string, due: Date) => P
 export async function closeScheduleQueue(): Promise<void> {
   await queue?.close();
   queue = undefined;
+  connection = undefined;
 }

@@ -403,11 +403,8 @@ export async function runDefinition(input: {
       userId: input.userId,
       priority: run.priority,
       maxAttempts: run.maxAttempts ?? def.maxAttempts,
+      scheduleId: input.scheduleId ?? null,
     });
-    if (input.scheduleId) {
-      await db().update(schema.jobs).set({ scheduleId: input.scheduleId }).where(eq(schema.jobs.id, job.id));
-      return { ok: true, job: { ...job, scheduleId: input.scheduleId } };
-    }
     return { ok: true, job };
   } catch (error) {
     if (error instanceof QueueUnavailableError) return { ok: false, status: 503, title: "Queue unavailable", message: error.message };
