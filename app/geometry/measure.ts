@@ -6,8 +6,10 @@
  *    curve pieces: a piece is within d of an edge when all its control points are (distance to an
  *    edge is convex; convex hull property), and any curve point gives a lower bound.
  *  - polylineToPath: sup over polyline points (vertices and edge interiors) of the distance to the
- *    path. Branch and bound along each edge: the distance to the path is 1-Lipschitz along the
- *    edge, so on [a, b] it is at most (d(a) + d(b) + |ab|) / 2.
+ *    path. Branch and bound along each edge: on a piece [x_a, x_b] of the edge, every point is
+ *    within max(|x_a − q|, |x_b − q|) of any fixed path point q (distance to a point is convex
+ *    along a line), with q the nearest path point to either end; the bound tightens
+ *    quadratically as pieces shrink.
  * The two-sided Hausdorff distance is the larger of the two (e.g. Alt & Guibas, "Discrete
  * geometric shapes: matching, interpolation, and approximation", Handbook of Computational
  * Geometry, 1999, §2). Values returned are upper bounds within `accuracy` of the true value.
@@ -36,8 +38,18 @@ export class PathDistance {
     this.index = new GridIndex(boxes, extentOf(boxes));
   }
   distance(p: Point): number {
-    if (this.path.length === 0) return Infinity;
-    return this.index.nearest(p[0], p[1], (id) => nearestPoint(this.path[id], p).distance).distance;
+    return this.nearest(p).distance;
+  }
+  /** Nearest path point and its distance. */
+  nearest(p: Point): { distance: number; point: Point } {
+    if (this.path.length === 0) return { distance: Infinity, point: [NaN, NaN] };
+    let point: Point = [NaN, NaN];
+    const r = this.index.nearest(p[0], p[1], (id) => {
+      const n = nearestPoint(this.path[id], p);
+      return n.distance;
+    });
+    if (r.id >= 0) point = nearestPoint(this.path[r.id], p).point;
+    return { distance: r.distance, point };
   }
 }
 
@@ -127,30 +139,39 @@ export function polylineToPath(polyline: readonly Point[], path: Path, accuracy:
   const dist = new PathDistance(path);
   let lower = 0;
   let where: Point = polyline.length ? [polyline[0][0], polyline[0][1]] : [0, 0];
-  const dv = polyline.map((p) => dist.distance(p));
-  dv.forEach((d, i) => {
-    if (d > lower) {
-      lower = d;
+  const nv = polyline.map((p) => dist.nearest(p));
+  nv.forEach((n, i) => {
+    if (n.distance > lower) {
+      lower = n.distance;
       where = [polyline[i][0], polyline[i][1]];
     }
   });
+  type Item = { s: number; t: number; ps: Point; pt: Point; qs: Point; qt: Point };
+  const bound = (it: Item) => {
+    const via = (q: Point) => Math.max(Math.hypot(it.ps[0] - q[0], it.ps[1] - q[1]), Math.hypot(it.pt[0] - q[0], it.pt[1] - q[1]));
+    return Math.min(via(it.qs), via(it.qt));
+  };
   for (let i = 0; i + 1 < polyline.length; i++) {
     const a = polyline[i];
     const b = polyline[i + 1];
-    const len = Math.hypot(b[0] - a[0], b[1] - a[1]);
-    const stack: [number, number, number, number][] = [[0, 1, dv[i], dv[i + 1]]];
+    const stack: Item[] = [{ s: 0, t: 1, ps: a, pt: b, qs: nv[i].point, qt: nv[i + 1].point }];
+    let guard = 0;
     while (stack.length) {
-      const [s, t, ds, dt] = stack.pop()!;
-      const ub = 0.5 * (ds + dt + (t - s) * len);
+      const it = stack.pop()!;
+      const ub = bound(it);
       if (ub <= lower + accuracy) continue;
-      const m = 0.5 * (s + t);
-      const p: Point = [a[0] + m * (b[0] - a[0]), a[1] + m * (b[1] - a[1])];
-      const dm = dist.distance(p);
-      if (dm > lower) {
-        lower = dm;
-        where = p;
+      const m = 0.5 * (it.s + it.t);
+      const pm: Point = [a[0] + m * (b[0] - a[0]), a[1] + m * (b[1] - a[1])];
+      const nm = dist.nearest(pm);
+      if (nm.distance > lower) {
+        lower = nm.distance;
+        where = pm;
       }
-      stack.push([s, m, ds, dm], [m, t, dm, dt]);
+      if (guard++ > 1_000_000) {
+        lower = Math.max(lower, ub - accuracy);
+        continue;
+      }
+      stack.push({ s: it.s, t: m, ps: it.ps, pt: pm, qs: it.qs, qt: nm.point }, { s: m, t: it.t, ps: pm, pt: it.pt, qs: nm.point, qt: it.qt });
     }
   }
   return { max: lower + accuracy, where };
