@@ -9,7 +9,9 @@
  *    path. Branch and bound along each edge: on a piece [x_a, x_b] of the edge, every point is
  *    within max(|x_a − q|, |x_b − q|) of any fixed path point q (distance to a point is convex
  *    along a line), with q the nearest path point to either end; the bound tightens
- *    quadratically as pieces shrink.
+ *    quadratically as pieces shrink; and when both ends' nearest points are on one segment whose
+ *    piece between them is a graph over its chord, the larger end distance plus that piece's
+ *    height (from its control points) bounds the edge piece too.
  * The two-sided Hausdorff distance is the larger of the two (e.g. Alt & Guibas, "Discrete
  * geometric shapes: matching, interpolation, and approximation", Handbook of Computational
  * Geometry, 1999, §2). Values returned are upper bounds within `accuracy` of the true value.
@@ -41,15 +43,20 @@ export class PathDistance {
     return this.nearest(p).distance;
   }
   /** Nearest path point and its distance. */
-  nearest(p: Point): { distance: number; point: Point } {
-    if (this.path.length === 0) return { distance: Infinity, point: [NaN, NaN] };
+  nearest(p: Point): { distance: number; point: Point; id: number; t: number } {
+    if (this.path.length === 0) return { distance: Infinity, point: [NaN, NaN], id: -1, t: 0 };
     let point: Point = [NaN, NaN];
-    const r = this.index.nearest(p[0], p[1], (id) => {
-      const n = nearestPoint(this.path[id], p);
-      return n.distance;
-    });
-    if (r.id >= 0) point = nearestPoint(this.path[r.id], p).point;
-    return { distance: r.distance, point };
+    let t = 0;
+    const r = this.index.nearest(p[0], p[1], (id) => nearestPoint(this.path[id], p).distance);
+    if (r.id >= 0) {
+      const n = nearestPoint(this.path[r.id], p);
+      point = n.point;
+      t = n.t;
+    }
+    return { distance: r.distance, point, id: r.id, t };
+  }
+  segment(id: number): Segment {
+    return this.path[id];
   }
 }
 
@@ -146,15 +153,42 @@ export function polylineToPath(polyline: readonly Point[], path: Path, accuracy:
       where = [polyline[i][0], polyline[i][1]];
     }
   });
-  type Item = { s: number; t: number; ps: Point; pt: Point; qs: Point; qt: Point };
+  type Near = ReturnType<PathDistance["nearest"]>;
+  type Item = { s: number; t: number; ps: Point; pt: Point; ns: Near; nt: Near };
   const bound = (it: Item) => {
     const via = (q: Point) => Math.max(Math.hypot(it.ps[0] - q[0], it.ps[1] - q[1]), Math.hypot(it.pt[0] - q[0], it.pt[1] - q[1]));
-    return Math.min(via(it.qs), via(it.qt));
+    let ub = Math.min(via(it.ns.point), via(it.nt.point));
+    // Chord bound: when both ends' nearest points lie on one segment and the curve piece between
+    // them is a graph over its chord with height h, every point of the edge piece is within
+    // max(d_s, d_t) (distance to the chord is convex along the edge) plus h of the curve.
+    if (it.ns.id === it.nt.id && it.ns.id >= 0) {
+      const piece = subSegment(dist.segment(it.ns.id), it.ns.t, it.nt.t);
+      const n = piece.length - 1;
+      const ax = piece[0][0], ay = piece[0][1];
+      const len = Math.hypot(piece[n][0] - ax, piece[n][1] - ay);
+      let h = 0;
+      let monotone = true;
+      if (len > 0) {
+        const ux = (piece[n][0] - ax) / len, uy = (piece[n][1] - ay) / len;
+        let prev = 0;
+        for (let j = 0; j <= n; j++) {
+          const rx = piece[j][0] - ax, ry = piece[j][1] - ay;
+          const tau = rx * ux + ry * uy;
+          if (j > 0 && tau < prev) monotone = false;
+          prev = tau;
+          h = Math.max(h, Math.abs(-rx * uy + ry * ux));
+        }
+      } else {
+        for (const q of piece) h = Math.max(h, Math.hypot(q[0] - ax, q[1] - ay));
+      }
+      if (monotone) ub = Math.min(ub, Math.max(it.ns.distance, it.nt.distance) + h);
+    }
+    return ub;
   };
   for (let i = 0; i + 1 < polyline.length; i++) {
     const a = polyline[i];
     const b = polyline[i + 1];
-    const stack: Item[] = [{ s: 0, t: 1, ps: a, pt: b, qs: nv[i].point, qt: nv[i + 1].point }];
+    const stack: Item[] = [{ s: 0, t: 1, ps: a, pt: b, ns: nv[i], nt: nv[i + 1] }];
     let guard = 0;
     while (stack.length) {
       const it = stack.pop()!;
@@ -171,7 +205,7 @@ export function polylineToPath(polyline: readonly Point[], path: Path, accuracy:
         lower = Math.max(lower, ub - accuracy);
         continue;
       }
-      stack.push({ s: it.s, t: m, ps: it.ps, pt: pm, qs: it.qs, qt: nm.point }, { s: m, t: it.t, ps: pm, pt: it.pt, qs: nm.point, qt: it.qt });
+      stack.push({ s: it.s, t: m, ps: it.ps, pt: pm, ns: it.ns, nt: nm }, { s: m, t: it.t, ps: pm, pt: it.pt, ns: nm, nt: it.nt });
     }
   }
   return { max: lower + accuracy, where };
