@@ -1,8 +1,9 @@
-import { readdir, stat } from "node:fs/promises";
+import { constants } from "node:fs";
+import { access, readdir, stat } from "node:fs/promises";
 import { join } from "node:path";
 import { and, asc, count, desc, eq, inArray, sql } from "drizzle-orm";
 import { db, schema } from "../app/.server/db/client.server";
-import { commitStagingDir, makeStagingDir, removeStored, storagePath } from "../app/.server/storage.server";
+import { commitStagingDir, makeStagingDir, removeStored, storagePath, storageRoot } from "../app/.server/storage.server";
 import { OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES, type OutputFormat } from "../app/formats";
 import { jobLog, type JobLog } from "./job-log";
 import type { FeatureReport } from "./steps";
@@ -607,6 +608,16 @@ async function storage<T>(fn: () => Promise<T>): Promise<T> {
   try {
     return await fn();
   } catch (error) {
+    // Some failures on a read-only or full file system surface as another code (a recursive
+    // mkdir answers ENOENT); the storage folder itself then says what is wrong.
+    const code = (error as { code?: unknown } | null)?.code;
+    if (typeof code !== "string" || !STORAGE_ERROR_CODES.has(code)) {
+      try {
+        await access(storageRoot(), constants.W_OK);
+      } catch (rootError) {
+        throw describeStorageError(rootError);
+      }
+    }
     throw describeStorageError(error);
   }
 }

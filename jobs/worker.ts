@@ -16,11 +16,18 @@ if (!settings.REDIS_URL) {
   logger.warn("REDIS_URL is not set: this worker would only see its own in-memory queue. Set REDIS_URL to the web process's Redis, or let the web process run jobs itself (the default).");
   process.exit(1);
 }
-await migrateDatabase();
-const worker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
-logger.info({ concurrency: settings.WORKER_CONCURRENCY, pid: process.pid }, "worker started");
-
+let worker: ReturnType<typeof startJobWorker> | undefined;
 let stopping = false;
+// Installed first, so a stop asked for while the worker starts is honoured too.
+process.on("SIGTERM", () => void shutdown("SIGTERM"));
+process.on("SIGINT", () => void shutdown("SIGINT"));
+
+await migrateDatabase();
+if (!stopping) {
+  worker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
+  logger.info({ concurrency: settings.WORKER_CONCURRENCY, pid: process.pid }, "worker started");
+}
+
 async function shutdown(signal: string) {
   if (stopping) return;
   stopping = true;
@@ -31,12 +38,10 @@ async function shutdown(signal: string) {
     process.exit(1);
   }, runner.LISSOM_SHUTDOWN_MS + 5000);
   hardStop.unref();
-  const inTime = await shutdownJobWorker(worker, runner.LISSOM_SHUTDOWN_MS);
+  const inTime = worker ? await shutdownJobWorker(worker, runner.LISSOM_SHUTDOWN_MS) : true;
   if (!inTime) logger.warn("running jobs did not stop in time; the queue gives them to another worker once their lock expires");
   await closeQueue().catch(() => undefined);
   await closeDatabase();
   logger.info("worker stopped");
   process.exit(inTime ? 0 : 1);
 }
-process.on("SIGTERM", () => void shutdown("SIGTERM"));
-process.on("SIGINT", () => void shutdown("SIGINT"));

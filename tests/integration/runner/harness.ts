@@ -165,9 +165,13 @@ export async function closeApp(): Promise<void> {
   await closeQueue();
 }
 
-/** A worker process (`npm run worker`'s entry) with this file's settings. */
+/**
+ * A worker process (`npm run worker`'s entry) with this file's settings. Node runs it with tsx
+ * as a loader, in one process, so a signal reaches the worker itself (the tsx command line
+ * would run it in a child process of its own).
+ */
 export function spawnWorkerProcess(env: Record<string, string>): { child: ChildProcess; output: () => string; exited: Promise<number | null> } {
-  const child = spawn(join(ROOT, "node_modules/.bin/tsx"), ["jobs/worker.ts"], {
+  const child = spawn(process.execPath, ["--import", "tsx", "jobs/worker.ts"], {
     cwd: ROOT,
     env: { ...process.env, ...env, LOG_LEVEL: "info" },
     stdio: ["ignore", "pipe", "pipe"],
