@@ -31,7 +31,7 @@ describe("the web process restarted with jobs accepted and running (embedded que
     const whole = await storeTownDataset("restart whole", 50_000, { seed: 31 });
     const fanned = await storeTownDataset("restart fanned", 80_000, { seed: 32 });
     const waiting = await storeTownDataset("restart waiting", 3_000, { seed: 33 });
-    const childEnv = { ...process.env, ...env.env, WORKER_CONCURRENCY: "1" };
+    const childEnv: NodeJS.ProcessEnv = { ...process.env, ...env.env, WORKER_CONCURRENCY: "1" };
     delete childEnv.REDIS_URL;
     const child = spawn(process.execPath, ["--import", "tsx", "tests/integration/faults/web-process.ts", fanned.version.id, whole.version.id, waiting.version.id], {
       cwd: ROOT,
