@@ -67,6 +67,7 @@ export function startJobWorker(options: JobWorkerOptions = {}): Worker<QueuedJob
     settings: { backoffStrategy },
   });
   states.set(worker, state);
+  state.pool?.warm().catch((error: unknown) => logger.error({ err: error }, "could not start the runner threads; jobs will try again"));
   worker.on("error", (error) => logger.error({ err: error }, "job worker error"));
   // Failures of the processor are recorded before it returns (so a flow's merge entry never
   // runs ahead of a chunk's failed status); this catches the others, such as an entry that

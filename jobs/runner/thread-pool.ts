@@ -64,6 +64,23 @@ export class ThreadPool {
     });
   }
 
+  /**
+   * Starts threads ahead of the first task, so the first job does not wait for one to load;
+   * a thread that fails to start is only logged through the returned promise.
+   */
+  async warm(): Promise<void> {
+    const missing = this.size - this.all.size;
+    const started = await Promise.allSettled(Array.from({ length: missing }, () => this.spawn()));
+    for (const r of started) {
+      if (r.status === "fulfilled") {
+        if (!this.closed && this.idle.length < this.size) this.idle.push(r.value);
+        else await this.retire(r.value);
+      }
+    }
+    const failed = started.find((r): r is PromiseRejectedResult => r.status === "rejected");
+    if (failed) throw failed.reason;
+  }
+
   /** Threads started so far and still alive (for tests). */
   get threads(): number {
     return this.all.size;
