@@ -1,5 +1,8 @@
 /**
- * The command line: the same step runners as the worker, over GeoJSON files.
+ * The command line: the same step runners and format readers/writers as the worker. Input is
+ * any format the datasets area accepts (GeoJSON, newline-delimited GeoJSON, GeoJSON text
+ * sequences, a zipped Shapefile or a loose .shp with its parts); the output format follows the
+ * output's extension (.geojson .ndjson .zip .gml .svg .csv).
  *
  *   lissom fit --input IN --output OUT --tolerance METRES [--corner-angle DEG] [--crs CODE] [--report REPORT.json]
  *   lissom elevate --input IN --output OUT --degree N [--crs CODE] [--report REPORT.json]
@@ -7,11 +10,12 @@
  *
  * Exit status: 0 done; 1 bad input (one line on stderr: file, feature index, reason); 2 bad usage.
  */
-import { writeFile } from "node:fs/promises";
+import { readdir, stat, writeFile } from "node:fs/promises";
+import { basename, dirname, join } from "node:path";
 import { parseArgs } from "node:util";
 import { describeCrs, normaliseCode } from "../app/geometry/crs";
 import { DEFAULT_CORNER_ANGLE } from "../app/geometry/fit";
-import { InputError, readFeatureFile, writeFeatureFile } from "./steps/geojson-io";
+import { DatasetInputError, OUTPUT_EXTENSIONS, inspectDataset, outputFormatForPath, readFeatures, writeOutput } from "../app/formats";
 import { runFeatureStep, type FeatureReport, type StepName } from "./steps/index";
 
 const USAGE = `usage:
@@ -23,6 +27,13 @@ const SAFETY =
   "Curves and polylines approximate the input within the stated tolerance. Not for legal boundary definition or for locating buried utilities; defer to local survey codes and licensed surveyors.";
 
 class UsageError extends Error {}
+
+/** A feature the step refused: the file, the feature index and the reason, on one line. */
+class InputError extends Error {
+  constructor(file: string, featureIndex: number | null, reason: string) {
+    super(`${file}: ${featureIndex === null ? "" : `feature ${featureIndex}: `}${reason}`);
+  }
+}
 
 function number(value: string | undefined, name: string, check: (v: number) => boolean, what: string): number {
   if (value === undefined) throw new UsageError(`--${name} is required`);
@@ -82,24 +93,30 @@ export async function main(argv: string[]): Promise<number> {
 
   const input = values.input!;
   const output = values.output!;
-  try {
-    const { crsCode: fileCrs, features } = await readFeatureFile(input);
-    const code = normaliseCode(values.crs ?? fileCrs ?? "EPSG:4326");
-    let kind;
+  const format = outputFormatForPath(output);
+  if (!format) {
+    process.stderr.write(`lissom: --output: cannot tell the format from "${output}"; end it in ${Object.values(OUTPUT_EXTENSIONS).join(", ")}\n`);
+    return 2;
+  }
+  if (values.crs) {
     try {
-      kind = describeCrs(code);
+      describeCrs(normaliseCode(values.crs));
     } catch (e) {
-      if (values.crs) {
-        process.stderr.write(`lissom: --crs: ${(e as Error).message}\n`);
-        return 2;
-      }
-      throw new InputError(input, null, `the file's crs member: ${(e as Error).message}; pass --crs`);
+      process.stderr.write(`lissom: --crs: ${(e as Error).message}\n`);
+      return 2;
     }
+  }
+  try {
+    const files = await inputFiles(input);
+    const readOptions = values.crs ? { crs: normaliseCode(values.crs) } : {};
+    // One streaming pass to check the whole file and learn its CRS, one to run the step.
+    const summary = await inspectDataset(files, readOptions);
+    const code = summary.crs.code;
     const crs = { code };
     const reports: FeatureReport[] = [];
     const started = Date.now();
     let lastProgress = started;
-    const total = features.length;
+    const total = summary.features;
     const progress = (done: number, final = false) => {
       const now = Date.now();
       if (!final && now - lastProgress < 1000) return;
@@ -107,26 +124,35 @@ export async function main(argv: string[]): Promise<number> {
       lastProgress = now;
       process.stderr.write(`lissom ${step}: ${done}/${total} features (${Math.round((done / Math.max(1, total)) * 100)}%)\n`);
     };
-    const results: object[] = [];
-    for (let i = 0; i < total; i++) {
-      const r = runFeatureStep(step, params as never, features[i], i, crs);
-      if (r.report.status === "error") {
-        const reason = r.report.reason ?? "invalid feature";
-        const hint = kind.kind === "geographic" && /outside the longitude\/latitude range/.test(reason) && !values.crs && !fileCrs ? "; these coordinates are not WGS84 longitude/latitude: pass --crs with the dataset's CRS" : "";
-        throw new InputError(input, i, reason + hint);
+    async function* results() {
+      let done = 0;
+      for await (const { index, feature } of readFeatures(files, readOptions)) {
+        const r = runFeatureStep(step, params as never, feature, index, crs);
+        if (r.report.status === "error") throw new InputError(input, index, r.report.reason ?? "invalid feature");
+        reports.push(r.report);
+        // The SVG writer draws the input beside the result; other writers leave this member out.
+        if (format === "svg") (r.feature as { inputGeometry?: unknown }).inputGeometry = feature.geometry;
+        yield r.feature;
+        progress(++done);
       }
-      reports.push(r.report);
-      results.push(r.feature);
-      progress(i + 1);
+      progress(done, true);
     }
-    progress(total, true);
-    const members: Record<string, unknown> = {
-      lissom: { step, ...params, units: step === "elevate" ? undefined : "metres", crs: code, note: SAFETY },
-    };
-    await writeFeatureFile(output, results, { crsCode: code, members });
+    await writeOutput(format, results(), output, {
+      tolerance_m: step === "elevate" ? null : params.tolerance,
+      steps: [{ step, params }],
+      source: { file: basename(input) },
+      crs: code,
+      ...(summary.crs.wkt ? { crsWkt: summary.crs.wkt } : {}),
+      caution: SAFETY,
+      title: basename(input),
+    });
     if (values.report) await writeFile(values.report, `${JSON.stringify(makeReport(step, params, code, input, output, reports), null, 2)}\n`);
     return 0;
   } catch (e) {
+    if (e instanceof DatasetInputError) {
+      process.stderr.write(`lissom: ${e.message.replace(/\bthe crs option\b/g, "--crs")}\n`);
+      return 1;
+    }
     if (e instanceof InputError) {
       process.stderr.write(`lissom: ${e.message}\n`);
       return 1;
@@ -138,6 +164,24 @@ export async function main(argv: string[]): Promise<number> {
     }
     throw e;
   }
+}
+
+/**
+ * The files of one input: the file itself, or for a loose Shapefile (.shp) the parts beside it
+ * with the same base name (.shx, .dbf, .prj, .cpg).
+ */
+async function inputFiles(path: string): Promise<{ path: string; name: string }[]> {
+  const name = basename(path);
+  try {
+    await stat(path);
+  } catch {
+    throw new InputError(path, null, "file not found");
+  }
+  if (!/\.shp$/i.test(name)) return [{ path, name }];
+  const dir = dirname(path);
+  const stem = name.slice(0, -4).toLowerCase();
+  const parts = (await readdir(dir)).filter((f) => /\.(shp|shx|dbf|prj|cpg)$/i.test(f) && f.slice(0, -4).toLowerCase() === stem);
+  return parts.map((f) => ({ path: join(dir, f), name: f }));
 }
 
 function makeReport(step: StepName, params: Record<string, number>, crs: string, input: string, output: string, reports: FeatureReport[]) {

@@ -40,10 +40,36 @@ describe("lissom command line", () => {
     const r = run("fit", "--input", bad, "--output", join(dir, "o.geojson"), "--tolerance", "5");
     expect(r.status).toBe(1);
     expect(r.stderr.trim().split("\n")).toHaveLength(1);
-    expect(r.stderr).toMatch(/bad\.geojson: feature 0: .*--crs/);
+    expect(r.stderr).toMatch(/bad\.geojson: feature 0\b.*--crs/);
     const ok = run("fit", "--input", bad, "--output", join(dir, "o.geojson"), "--tolerance", "5", "--crs", "EPSG:32633");
     expect(ok.status, ok.stderr).toBe(0);
     expect(run("fit", "--input", bad, "--output", join(dir, "o.geojson")).status).toBe(2);
     expect(run("bogus").status).toBe(2);
+    expect(run("fit", "--input", bad, "--output", join(dir, "o.dwg"), "--tolerance", "5").status).toBe(2);
+    const missing = run("fit", "--input", join(dir, "none.geojson"), "--output", join(dir, "o.geojson"), "--tolerance", "5");
+    expect(missing.status).toBe(1);
+    expect(missing.stderr).toMatch(/none\.geojson: file not found/);
+  });
+
+  it("reads every input format and writes the format named by the output's extension", () => {
+    const ndjson = join(dir, "in.ndjson");
+    // RFC 8142-style lines: one GeoJSON Feature per line (newline-delimited GeoJSON).
+    writeFileSync(ndjson, JSON.parse(readFileSync(input, "utf8")).features.map((f: unknown) => JSON.stringify(f)).join("\n") + "\n");
+    const zip = join(dir, "fit.zip");
+    const a = run("fit", "--input", ndjson, "--output", zip, "--tolerance", "5");
+    expect(a.status, a.stderr).toBe(0);
+    // The zipped Shapefile goes back in as input (the `shapefile` package reads it inside formats).
+    const back = join(dir, "back.gml");
+    const b = run("discretise", "--input", zip, "--output", back, "--tolerance", "1");
+    expect(b.status, b.stderr).toBe(0);
+    // GML 3.2 namespace (OGC 07-036, from memory): http://www.opengis.net/gml/3.2
+    expect(readFileSync(back, "utf8")).toContain("http://www.opengis.net/gml/3.2");
+    for (const ext of [".svg", ".csv", ".ndjson"]) {
+      const out = join(dir, `fit${ext}`);
+      const r = run("fit", "--input", input, "--output", out, "--tolerance", "5");
+      expect(r.status, `${ext}: ${r.stderr}`).toBe(0);
+      expect(readFileSync(out, "utf8").length).toBeGreaterThan(100);
+    }
+    expect(readFileSync(join(dir, "fit.svg"), "utf8")).toMatch(/<path[^>]* d="M[^"]*C/);
   });
 });
