@@ -117,7 +117,7 @@ export async function runChunk(chunkId: string, ctx: RunContext = {}): Promise<R
   const run = await runTaskInto(
     staging,
     ctx,
-    { kind: "process", input: { chunkFile: storagePath(splitFile(parent.id, chunk.chunkIndex!)), crs: source.crs }, steps: job_steps(parent), output: { kind: "chunk", path: join(staging, "output.ndjson") }, stepsModule: ctx.stepsModule },
+    { kind: "process", input: { chunkFile: storagePath(splitFile(parent.id, chunk.chunkIndex!)), crs: source.crs }, steps: job_steps(parent), output: { kind: "chunk", path: join(staging, "output.ndjson"), inputLayer: outputFormats(parent.inputs).includes("svg") }, stepsModule: ctx.stepsModule },
     { job: chunk, parent, log: chunkLog, reports, total: chunk.featuresTotal },
   );
   if (run.outcome !== "done") {

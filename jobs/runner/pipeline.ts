@@ -28,6 +28,7 @@ import { join } from "node:path";
 import { createInterface } from "node:readline";
 import { describeCrs } from "../../app/geometry/crs";
 import { OUTPUT_EXTENSIONS, readFeatures, writeOutput, type OutputFormat } from "../../app/formats";
+import { broadcast } from "../broadcast";
 import { runFeatureStep, type FeatureReport } from "../steps";
 
 export interface StepSpec {
@@ -56,6 +57,8 @@ export interface ChunkOutputSpec {
   kind: "chunk";
   /** The chunk output file (NDJSON of `{i, f}` lines). */
   path: string;
+  /** Keep each feature's input geometry beside the result, for an SVG output's input layer. */
+  inputLayer?: boolean;
 }
 
 export type PipelineTask =
@@ -259,12 +262,15 @@ async function processTask(task: Extract<PipelineTask, { kind: "process" }>, con
     if (batch.length) hooks.onReports?.(batch);
     batch = [];
   };
+  const inputLayer = task.output.kind === "final" ? task.output.formats.includes("svg") : Boolean(task.output.inputLayer);
   async function* processed(): AsyncGenerator<IndexedFeature> {
     for await (const { index, feature } of readInput(task.input)) {
       checkStop(control);
       const t0 = performance.now();
       const result = runSteps(run, task.steps, feature, index, crs);
       geometryMs += performance.now() - t0;
+      // The SVG writer draws the input beside the result; every other writer leaves this out.
+      if (inputLayer) (result.feature as { inputGeometry?: unknown }).inputGeometry = (feature as { geometry?: unknown }).geometry;
       batch.push(result.report);
       if (batch.length >= REPORT_BATCH) flush();
       done++;
@@ -289,29 +295,24 @@ async function* featuresOf(items: AsyncIterable<IndexedFeature>): AsyncGenerator
 }
 
 /**
- * The job's output files: GeoJSON with curves first, then every other asked-for format from
- * that file, so all formats of one job hold the same curves (the GeoJSON is dropped again when
- * it was not asked for).
+ * The job's output files: every asked-for format written from the one stream of processed
+ * features (a broadcast with backpressure), so all formats of one job hold the same curves and
+ * nothing is read back.
  */
 async function writeFinal(features: AsyncIterable<object>, output: FinalOutputSpec, control: Int32Array): Promise<WrittenFile[]> {
-  const primaryName = `${output.baseName}.geojson`;
-  const primary = join(output.dir, primaryName);
-  const written: WrittenFile[] = [];
-  await writeOutput("geojson", features, primary, output.metadata);
-  if (output.formats.includes("geojson")) written.push({ format: "geojson", fileName: primaryName });
-  for (const format of output.formats) {
-    if (format === "geojson") continue;
-    checkStop(control);
-    const fileName = `${output.baseName}${OUTPUT_EXTENSIONS[format]}`;
-    await writeOutput(format, reread(primary), join(output.dir, fileName), output.metadata);
-    written.push({ format, fileName });
-  }
-  if (!output.formats.includes("geojson")) await rm(primary, { force: true });
+  const written = output.formats.map((format) => ({ format, fileName: `${output.baseName}${OUTPUT_EXTENSIONS[format]}` }));
+  const streams = broadcast(stopping(features, control), written.length);
+  const results = await Promise.allSettled(written.map((w, i) => writeOutput(w.format, streams[i]!, join(output.dir, w.fileName), output.metadata)));
+  const failed = results.find((r): r is PromiseRejectedResult => r.status === "rejected");
+  if (failed) throw failed.reason;
   return written;
 }
 
-async function* reread(path: string): AsyncGenerator<object> {
-  for await (const { feature } of readFeatures([{ path, name: path.split("/").pop()! }])) yield feature;
+async function* stopping(features: AsyncIterable<object>, control: Int32Array): AsyncGenerator<object> {
+  for await (const f of features) {
+    checkStop(control);
+    yield f;
+  }
 }
 
 async function splitTask(task: Extract<PipelineTask, { kind: "split" }>, control: Int32Array): Promise<SplitResult> {

@@ -126,6 +126,13 @@ describe("output formats", () => {
     // Media types: RFC 7946 §12 (application/geo+json), RFC 8142 (application/geo+json-seq).
     expect(files.find((f) => f.format === "geojson")!.type).toBe("application/geo+json");
     expect(files.find((f) => f.format === "ndjson")!.type).toBe("application/geo+json-seq");
+    // The SVG holds both layers: the input polyline and the fitted curves (path `C` commands, SVG 1.1 §8.3.6).
+    const svgLink = (results.body as { files: { href: string; format: string }[] }).files.find((f) => f.format === "svg")!;
+    const { loader: downloadLoader } = await api.download();
+    const svg = await call(downloadLoader as never, { request: request(svgLink.href, { cookie: cookies.engineer }), params: { outputId: svgLink.href.split("/")[2]! } });
+    const text = String(svg.body);
+    expect(text).toMatch(/<g id="input"[^>]*>\s*<path /);
+    expect(text).toMatch(/<g id="output"[\s\S]*d="M[^"]* C/);
   });
 
   it("refuses an unknown format before queuing", async () => {
