@@ -1,4 +1,5 @@
-import { useEffect, useMemo, useRef, useState } from "react";
+import { useMemo } from "react";
+import { usePanZoom } from "./use-pan-zoom";
 
 interface Props {
   /** The feature's lines before the steps, per part, [x, y] in the dataset's coordinates. */
@@ -29,12 +30,7 @@ export function PreviewPlot({ input, result, controlPoints = [], bbox, geographi
     const at = (p: number[]) => xy(p).map((v) => v.toPrecision(8)).join(" ");
     return { view: { x: -pad, y: -pad, w: w + 2 * pad, h: h + 2 * pad }, at, xy };
   }, [bbox, geographic]);
-  // Wheel to zoom, drag to pan (as in LineworkPlot): deviations of a few metres on a line of
-  // some kilometres only show up close.
-  const [view, setView] = useState(frame?.view);
-  useEffect(() => setView(frame?.view), [frame]);
-  const drag = useRef<{ x: number; y: number } | null>(null);
-  const svgRef = useRef<SVGSVGElement>(null);
+  const { view, handlers, reset } = usePanZoom(frame?.view, 1.25);
   const paths = useMemo(() => {
     if (!frame) return null;
     const path = (parts: number[][][]) => parts.map((part) => part.map((p, i) => `${i === 0 ? "M" : "L"}${frame.at(p)}`).join("")).join("");
@@ -43,38 +39,16 @@ export function PreviewPlot({ input, result, controlPoints = [], bbox, geographi
   if (!frame || !view || !paths) return <p className="text-sm text-ink-soft">Nothing to draw: the feature has no lines.</p>;
   const u = Math.max(view.w, view.h) / 400;
 
-  function onWheel(e: React.WheelEvent<SVGSVGElement>) {
-    const rect = svgRef.current!.getBoundingClientRect();
-    const fx = (e.clientX - rect.left) / rect.width;
-    const fy = (e.clientY - rect.top) / rect.height;
-    const k = e.deltaY > 0 ? 1.25 : 1 / 1.25;
-    setView((v) => v && { x: v.x + v.w * fx * (1 - k), y: v.y + v.h * fy * (1 - k), w: v.w * k, h: v.h * k });
-  }
-  function onPointerMove(e: React.PointerEvent<SVGSVGElement>) {
-    if (!drag.current) return;
-    const rect = svgRef.current!.getBoundingClientRect();
-    const dx = ((e.clientX - drag.current.x) / rect.width) * view!.w;
-    const dy = ((e.clientY - drag.current.y) / rect.height) * view!.h;
-    drag.current = { x: e.clientX, y: e.clientY };
-    setView((v) => v && { ...v, x: v.x - dx, y: v.y - dy });
-  }
   return (
     <figure className="relative">
       <svg
-        ref={svgRef}
+        {...handlers}
         role="img"
         aria-label="The feature before and after the steps"
         viewBox={`${view.x} ${view.y} ${view.w} ${view.h}`}
         preserveAspectRatio="xMidYMid meet"
         className="w-full cursor-grab touch-none rounded-md border border-rule bg-paper active:cursor-grabbing"
         style={{ height }}
-        onWheel={onWheel}
-        onPointerDown={(e) => {
-          drag.current = { x: e.clientX, y: e.clientY };
-          (e.target as Element).setPointerCapture?.(e.pointerId);
-        }}
-        onPointerMove={onPointerMove}
-        onPointerUp={() => (drag.current = null)}
       >
         {controlPoints.map((seg, i) => (
           <g key={i} stroke="var(--color-ochre-600)" strokeOpacity={0.45} fill="var(--color-ochre-600)" fillOpacity={0.6}>
@@ -88,7 +62,7 @@ export function PreviewPlot({ input, result, controlPoints = [], bbox, geographi
         <path d={paths.input} fill="none" stroke="var(--color-clay-600)" strokeOpacity={0.35} strokeWidth={u * 4} strokeLinejoin="round" strokeLinecap="round" />
         <path d={paths.result} fill="none" stroke="var(--color-tide-600)" strokeWidth={u * 1.6} strokeLinejoin="round" />
       </svg>
-      <button type="button" onClick={() => setView(frame.view)} className="absolute right-2 top-2 rounded bg-card/90 px-2 py-1 text-xs text-ink-soft shadow">
+      <button type="button" onClick={reset} className="absolute right-2 top-2 rounded bg-card/90 px-2 py-1 text-xs text-ink-soft shadow">
         Reset view
       </button>
       <figcaption className="mt-2 flex flex-wrap gap-4 text-xs text-ink-soft">
