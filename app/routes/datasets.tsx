@@ -5,6 +5,7 @@ import { listDatasets } from "../.server/datasets.server";
 import { setNotice } from "../.server/flash.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
+import { ListTable } from "../components/list-table";
 import { Card, EmptyState, PageHeader } from "../components/page";
 import { UploadForm } from "../components/upload-form";
 import type { Route } from "./+types/datasets";
@@ -40,36 +41,22 @@ export default function Datasets({ loaderData }: Route.ComponentProps) {
       {datasets.length === 0 ? (
         <EmptyState title="No datasets yet">{canUpload ? "Upload a GeoJSON file of lines to begin." : "Engineers upload datasets; they will appear here."}</EmptyState>
       ) : (
-        <div className="overflow-hidden rounded-card border border-rule bg-card">
-          <table className="w-full text-sm">
-            <thead className="bg-paper text-left text-ink-soft">
-              <tr>
-                <th className="px-4 py-2 font-medium">Name</th>
-                <th className="px-4 py-2 font-medium">Version</th>
-                <th className="px-4 py-2 font-medium">Format</th>
-                <th className="px-4 py-2 text-right font-medium">Features</th>
-                <th className="px-4 py-2 text-right font-medium">Vertices</th>
-                <th className="px-4 py-2 font-medium">CRS</th>
-              </tr>
-            </thead>
-            <tbody>
-              {datasets.map((d) => (
-                <tr key={d.id} className="border-t border-rule">
-                  <td className="px-4 py-2">
-                    <Link to={`/datasets/${d.id}`} className="font-medium text-tide-600 hover:underline">
-                      {d.name}
-                    </Link>
-                  </td>
-                  <td className="px-4 py-2">v{d.latestVersion}</td>
-                  <td className="px-4 py-2">{d.latest?.format}</td>
-                  <td className="px-4 py-2 text-right tabular-nums">{d.latest?.summary.features.toLocaleString()}</td>
-                  <td className="px-4 py-2 text-right tabular-nums">{d.latest?.summary.vertices.toLocaleString()}</td>
-                  <td className="px-4 py-2">{d.latest?.summary.crs.code}</td>
-                </tr>
-              ))}
-            </tbody>
-          </table>
-        </div>
+        <ListTable columns={[{ label: "Name" }, { label: "Version" }, { label: "Format" }, { label: "Features", numeric: true }, { label: "Vertices", numeric: true }, { label: "CRS" }]}>
+          {datasets.map((d) => (
+            <tr key={d.id} className="border-t border-rule">
+              <td className="px-4 py-2">
+                <Link to={`/datasets/${d.id}`} className="font-medium text-tide-600 hover:underline">
+                  {d.name}
+                </Link>
+              </td>
+              <td className="px-4 py-2">v{d.latestVersion}</td>
+              <td className="px-4 py-2">{d.latest?.format}</td>
+              <td className="px-4 py-2 text-right tabular-nums">{d.latest?.summary.features.toLocaleString()}</td>
+              <td className="px-4 py-2 text-right tabular-nums">{d.latest?.summary.vertices.toLocaleString()}</td>
+              <td className="px-4 py-2">{d.latest?.summary.crs.code}</td>
+            </tr>
+          ))}
+        </ListTable>
       )}
     </>
   );

@@ -2,6 +2,7 @@ import { Link } from "react-router";
 import { listDefinitions, type StepInput } from "../.server/definitions.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
+import { ListTable } from "../components/list-table";
 import { EmptyState, PageHeader, buttonClass } from "../components/page";
 import type { Route } from "./+types/definitions";
 
@@ -42,39 +43,26 @@ export default function Definitions({ loaderData }: Route.ComponentProps) {
           {canWrite ? "Write one: pick the steps, try them on a feature, save." : "Engineers write definitions; they will appear here."}
         </EmptyState>
       ) : (
-        <div className="overflow-hidden rounded-card border border-rule bg-card">
-          <table className="w-full text-sm">
-            <thead className="bg-paper text-left text-ink-soft">
-              <tr>
-                <th className="px-4 py-2 font-medium">Name</th>
-                <th className="px-4 py-2 font-medium">Latest</th>
-                <th className="px-4 py-2 font-medium">Steps</th>
-                <th className="px-4 py-2 font-medium">Outputs</th>
-                <th className="px-4 py-2 font-medium">Saved</th>
-              </tr>
-            </thead>
-            <tbody>
-              {definitions.map((d) => (
-                <tr key={d.id} className="border-t border-rule">
-                  <td className="px-4 py-2">
-                    <Link to={`/definitions/${d.id}`} className="font-medium text-tide-600 hover:underline">
-                      {d.name}
-                    </Link>
-                    {d.description && <p className="text-xs text-ink-soft">{d.description}</p>}
-                  </td>
-                  <td className="px-4 py-2 tabular-nums">
-                    v{d.version} <span className="text-ink-faint">of {d.versionCount}</span>
-                  </td>
-                  <td className="px-4 py-2">{d.steps.join(" → ")}</td>
-                  <td className="px-4 py-2 text-ink-soft">{d.formats.join(", ")}</td>
-                  <td className="px-4 py-2 text-ink-soft">
-                    {new Date(d.createdAt).toLocaleString("en-GB")} · {d.createdByEmail ?? "unknown"}
-                  </td>
-                </tr>
-              ))}
-            </tbody>
-          </table>
-        </div>
+        <ListTable columns={[{ label: "Name" }, { label: "Latest" }, { label: "Steps" }, { label: "Outputs" }, { label: "Saved" }]}>
+          {definitions.map((d) => (
+            <tr key={d.id} className="border-t border-rule">
+              <td className="px-4 py-2">
+                <Link to={`/definitions/${d.id}`} className="font-medium text-tide-600 hover:underline">
+                  {d.name}
+                </Link>
+                {d.description && <p className="text-xs text-ink-soft">{d.description}</p>}
+              </td>
+              <td className="px-4 py-2 tabular-nums">
+                v{d.version} <span className="text-ink-faint">of {d.versionCount}</span>
+              </td>
+              <td className="px-4 py-2">{d.steps.join(" → ")}</td>
+              <td className="px-4 py-2 text-ink-soft">{d.formats.join(", ")}</td>
+              <td className="px-4 py-2 text-ink-soft">
+                {new Date(d.createdAt).toLocaleString("en-GB")} · {d.createdByEmail ?? "unknown"}
+              </td>
+            </tr>
+          ))}
+        </ListTable>
       )}
     </>
   );

@@ -2,6 +2,7 @@ import { useEffect } from "react";
 import { Link, useRevalidator } from "react-router";
 import { requirePermission } from "../.server/guards.server";
 import { countJobsByStatus, listJobs } from "../.server/jobs.server";
+import { ListTable } from "../components/list-table";
 import { EmptyState, PageHeader } from "../components/page";
 import { ProgressBar } from "../components/progress-bar";
 import { StatusBadge } from "../components/status-badge";
@@ -36,43 +37,30 @@ export default function Jobs({ loaderData }: Route.ComponentProps) {
       {jobs.length === 0 ? (
         <EmptyState title="No jobs yet">Open a dataset and run a fit to start one.</EmptyState>
       ) : (
-        <div className="overflow-hidden rounded-card border border-rule bg-card">
-          <table className="w-full text-sm">
-            <thead className="bg-paper text-left text-ink-soft">
-              <tr>
-                <th className="px-4 py-2 font-medium">Job</th>
-                <th className="px-4 py-2 font-medium">Dataset</th>
-                <th className="px-4 py-2 font-medium">Status</th>
-                <th className="w-56 px-4 py-2 font-medium">Progress</th>
-                <th className="px-4 py-2 font-medium">Submitted</th>
-              </tr>
-            </thead>
-            <tbody>
-              {jobs.map((j) => (
-                <tr key={j.id} className="border-t border-rule">
-                  <td className="px-4 py-2">
-                    <Link to={`/jobs/${j.id}`} className="font-mono text-xs text-tide-600 hover:underline">
-                      {j.id.slice(0, 8)}
-                    </Link>{" "}
-                    <span className="text-ink-soft">{j.processId}</span>
-                  </td>
-                  <td className="px-4 py-2">
-                    {j.datasetName} v{j.datasetVersion}
-                  </td>
-                  <td className="px-4 py-2">
-                    <StatusBadge status={j.status} />
-                  </td>
-                  <td className="px-4 py-2">
-                    <ProgressBar value={j.progress} label={`Progress of job ${j.id.slice(0, 8)}`} />
-                  </td>
-                  <td className="px-4 py-2 text-ink-soft">
-                    {new Date(j.createdAt).toLocaleString("en-GB")} · {j.submittedByEmail ?? "unknown"}
-                  </td>
-                </tr>
-              ))}
-            </tbody>
-          </table>
-        </div>
+        <ListTable columns={[{ label: "Job" }, { label: "Dataset" }, { label: "Status" }, { label: "Progress", className: "w-56" }, { label: "Submitted" }]}>
+          {jobs.map((j) => (
+            <tr key={j.id} className="border-t border-rule">
+              <td className="px-4 py-2">
+                <Link to={`/jobs/${j.id}`} className="font-mono text-xs text-tide-600 hover:underline">
+                  {j.id.slice(0, 8)}
+                </Link>{" "}
+                <span className="text-ink-soft">{j.processId}</span>
+              </td>
+              <td className="px-4 py-2">
+                {j.datasetName} v{j.datasetVersion}
+              </td>
+              <td className="px-4 py-2">
+                <StatusBadge status={j.status} />
+              </td>
+              <td className="px-4 py-2">
+                <ProgressBar value={j.progress} label={`Progress of job ${j.id.slice(0, 8)}`} />
+              </td>
+              <td className="px-4 py-2 text-ink-soft">
+                {new Date(j.createdAt).toLocaleString("en-GB")} · {j.submittedByEmail ?? "unknown"}
+              </td>
+            </tr>
+          ))}
+        </ListTable>
       )}
     </>
   );

@@ -5,6 +5,7 @@ import { setNotice } from "../.server/flash.server";
 import { requirePermission } from "../.server/guards.server";
 import { can } from "../.server/permissions.server";
 import { createSchedule, listSchedules, nextRuns, setSchedulePaused, timezoneNames } from "../.server/schedules.server";
+import { ListTable } from "../components/list-table";
 import { Card, EmptyState, Notice, PageHeader, quietButtonClass } from "../components/page";
 import { ScheduleFields, when } from "../components/schedule-fields";
 import { StatusBadge } from "../components/status-badge";
@@ -69,58 +70,44 @@ export default function Schedules({ loaderData, actionData }: Route.ComponentPro
       {schedules.length === 0 ? (
         <EmptyState title="No schedules yet">{may.write ? "Add one below." : "Engineers set up schedules; they will appear here."}</EmptyState>
       ) : (
-        <div className="overflow-hidden rounded-card border border-rule bg-card">
-          <table className="w-full text-sm">
-            <thead className="bg-paper text-left text-ink-soft">
-              <tr>
-                <th className="px-4 py-2 font-medium">Definition</th>
-                <th className="px-4 py-2 font-medium">Dataset</th>
-                <th className="px-4 py-2 font-medium">When</th>
-                <th className="px-4 py-2 font-medium">Next run</th>
-                <th className="px-4 py-2 font-medium">Last run</th>
-                <th className="px-4 py-2" />
-              </tr>
-            </thead>
-            <tbody>
-              {schedules.map((s) => (
-                <tr key={s.id} className="border-t border-rule">
-                  <td className="px-4 py-2">
-                    <Link to={`/schedules/${s.id}`} className="font-medium text-tide-600 hover:underline">
-                      {s.definitionName} v{s.definitionVersion}
-                    </Link>
-                    {s.newerDefinitionId && <p className="text-xs text-ochre-600">a newer version exists</p>}
-                  </td>
-                  <td className="px-4 py-2">{s.datasetName}</td>
-                  <td className="px-4 py-2">
-                    <code className="text-xs">{s.cron}</code> <span className="text-ink-soft">{s.timezone}</span>
-                  </td>
-                  <td className="px-4 py-2" data-testid="next-run">
-                    {s.paused ? <span className="text-ochre-600">paused</span> : when(s.nextRunAt, s.timezone)}
-                  </td>
-                  <td className="px-4 py-2">
-                    {s.lastJob ? (
-                      <Link to={`/jobs/${s.lastJob.id}`} className="hover:underline">
-                        <StatusBadge status={s.lastJob.status} /> <span className="text-ink-soft">{when(s.lastJob.createdAt, s.timezone)}</span>
-                      </Link>
-                    ) : (
-                      <span className="text-ink-faint">never</span>
-                    )}
-                  </td>
-                  <td className="px-4 py-2 text-right">
-                    {may.pause && (
-                      <Form method="post">
-                        <input type="hidden" name="scheduleId" value={s.id} />
-                        <button name="intent" value={s.paused ? "resume" : "pause"} className={quietButtonClass} disabled={busy}>
-                          {s.paused ? "Resume" : "Pause"}
-                        </button>
-                      </Form>
-                    )}
-                  </td>
-                </tr>
-              ))}
-            </tbody>
-          </table>
-        </div>
+        <ListTable columns={[{ label: "Definition" }, { label: "Dataset" }, { label: "When" }, { label: "Next run" }, { label: "Last run" }, { label: "" }]}>
+          {schedules.map((s) => (
+            <tr key={s.id} className="border-t border-rule">
+              <td className="px-4 py-2">
+                <Link to={`/schedules/${s.id}`} className="font-medium text-tide-600 hover:underline">
+                  {s.definitionName} v{s.definitionVersion}
+                </Link>
+                {s.newerDefinitionId && <p className="text-xs text-ochre-600">a newer version exists</p>}
+              </td>
+              <td className="px-4 py-2">{s.datasetName}</td>
+              <td className="px-4 py-2">
+                <code className="text-xs">{s.cron}</code> <span className="text-ink-soft">{s.timezone}</span>
+              </td>
+              <td className="px-4 py-2" data-testid="next-run">
+                {s.paused ? <span className="text-ochre-600">paused</span> : when(s.nextRunAt, s.timezone)}
+              </td>
+              <td className="px-4 py-2">
+                {s.lastJob ? (
+                  <Link to={`/jobs/${s.lastJob.id}`} className="hover:underline">
+                    <StatusBadge status={s.lastJob.status} /> <span className="text-ink-soft">{when(s.lastJob.createdAt, s.timezone)}</span>
+                  </Link>
+                ) : (
+                  <span className="text-ink-faint">never</span>
+                )}
+              </td>
+              <td className="px-4 py-2 text-right">
+                {may.pause && (
+                  <Form method="post">
+                    <input type="hidden" name="scheduleId" value={s.id} />
+                    <button name="intent" value={s.paused ? "resume" : "pause"} className={quietButtonClass} disabled={busy}>
+                      {s.paused ? "Resume" : "Pause"}
+                    </button>
+                  </Form>
+                )}
+              </td>
+            </tr>
+          ))}
+        </ListTable>
       )}
       {may.write && (
         <Card title="New schedule" className="mt-6">
