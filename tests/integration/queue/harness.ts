@@ -6,6 +6,7 @@
  * Every queue of a run lives under its own BullMQ prefix, so a shared real Redis is never
  * flushed: `dispose()` deletes exactly the keys of this run.
  */
+import { afterAll, afterEach, beforeAll, expect } from "vitest";
 import { FlowProducer, Queue, QueueEvents, Worker, type Processor, type QueueOptions, type WorkerOptions } from "bullmq";
 import type { Redis } from "ioredis";
 import { createRedisConnection, queueBackend, resetFakeRedis } from "../../../jobs/redis";
@@ -104,4 +105,24 @@ export function deferred<T = void>(): { promise: Promise<T>; resolve: (v: T) => 
   let resolve!: (v: T) => void;
   const promise = new Promise<T>((r) => (resolve = r));
   return { promise, resolve };
+}
+
+/**
+ * One harness for a test file: every test's queues and workers are closed after it, and any
+ * worker error it raised fails that test.
+ */
+export function useHarness(): () => Harness {
+  let h: Harness;
+  beforeAll(() => {
+    h = new Harness();
+  });
+  afterEach(async () => {
+    await h.closeAll();
+    const errors = h.errors.splice(0);
+    expect(errors.map((e) => e.message)).toEqual([]);
+  });
+  afterAll(async () => {
+    await h.dispose();
+  });
+  return () => h;
 }

@@ -4,21 +4,14 @@
  * 6.7.0 documentation (guide sections Queues, Jobs, Workers, Rate limiting, Deduplication) and
  * API reference.
  */
-import { afterAll, afterEach, beforeAll, describe, expect, it } from "vitest";
-import { backend, deferred, Harness, waitFor } from "./harness";
+import { beforeEach, describe, expect, it } from "vitest";
+import { backend, deferred, Harness, useHarness, waitFor } from "./harness";
 
 describe(`queue administration on ${backend === "embedded" ? "the embedded in-memory Redis" : "redis-server (REDIS_URL)"}`, () => {
+  const harness = useHarness();
   let h: Harness;
-  beforeAll(() => {
-    h = new Harness();
-  });
-  afterEach(async () => {
-    await h.closeAll();
-    const errors = h.errors.splice(0);
-    expect(errors.map((e) => e.message)).toEqual([]);
-  });
-  afterAll(async () => {
-    await h.dispose();
+  beforeEach(() => {
+    h = harness();
   });
 
   it("lists jobs by state, newest first, a page at a time", async () => {

@@ -6,21 +6,14 @@
  */
 import { UnrecoverableError, type Job } from "bullmq";
 import { pack } from "msgpackr";
-import { afterAll, afterEach, beforeAll, describe, expect, it } from "vitest";
-import { backend, deferred, Harness, waitFor } from "./harness";
+import { beforeEach, describe, expect, it } from "vitest";
+import { backend, deferred, Harness, useHarness, waitFor } from "./harness";
 
 describe(`queue contract on ${backend === "embedded" ? "the embedded in-memory Redis" : "redis-server (REDIS_URL)"}`, () => {
+  const harness = useHarness();
   let h: Harness;
-  beforeAll(() => {
-    h = new Harness();
-  });
-  afterEach(async () => {
-    await h.closeAll();
-    const errors = h.errors.splice(0);
-    expect(errors.map((e) => e.message)).toEqual([]);
-  });
-  afterAll(async () => {
-    await h.dispose();
+  beforeEach(() => {
+    h = harness();
   });
 
   it("adds, processes and completes a job with its return value", async () => {
