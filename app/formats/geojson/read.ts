@@ -5,29 +5,32 @@ import { FeatureGate, type ReaderSink } from "../gate";
 import { MAX_FEATURE_BYTES } from "../limits";
 import type { CrsSummary, FeatureItem, InputFile, ReadOptions } from "../types";
 import { describeValue } from "../validate";
-import { parseJson } from "./json-error";
-import { GeoJSONScanner, ScanError } from "./scanner";
+import { JsonStream, JsonStreamError, type JsonPiece } from "./json-stream";
 
 /** Read size for GeoJSON files: large enough that the per-chunk overhead vanishes. */
 const CHUNK_BYTES = 1 << 20;
 
 const GEOMETRY_TYPES = new Set(["Point", "MultiPoint", "LineString", "MultiLineString", "Polygon", "MultiPolygon", "GeometryCollection"]);
 
+const RECORD_SEPARATOR = 0x1e;
+
 /**
- * Reads one GeoJSON text (RFC 7946): a FeatureCollection (streamed feature by feature), a single
- * Feature, or a bare geometry (wrapped in a Feature with null properties). The legacy `crs`
- * member (GeoJSON 2008, removed by RFC 7946 §4) is honoured when it comes before `features`,
- * and reported as non-standard.
+ * Reads one GeoJSON text (RFC 7946) through `@loaders.gl/json`'s streaming tokenizer
+ * (`json-stream.ts`): a FeatureCollection (streamed feature by feature), a single Feature, or a
+ * bare geometry (wrapped in a Feature with null properties). The legacy `crs` member (GeoJSON
+ * 2008, removed by RFC 7946 §4) is honoured when it comes before `features`, and reported as
+ * non-standard.
  */
 export async function* readGeoJSON(file: InputFile, options: ReadOptions, sink: ReaderSink): AsyncGenerator<FeatureItem> {
-  const scanner = new GeoJSONScanner(MAX_FEATURE_BYTES);
+  const stream = new JsonStream("document", MAX_FEATURE_BYTES);
   const root: Record<string, unknown> = {};
+  let rootValue: unknown;
   let gate: FeatureGate | null = null;
   let sawFeatures = false;
-  let lastOffset = 0;
+  let multiline = false;
 
-  const fail = (reason: string, hint: string, offset?: number, feature?: number): never => {
-    throw new DatasetInputError({ file: file.name, reason, hint, offset, feature });
+  const fail = (reason: string, hint: string, feature?: number, offset?: number): never => {
+    throw new DatasetInputError({ file: file.name, reason, hint, feature, offset });
   };
 
   const openGate = (): FeatureGate => {
@@ -39,51 +42,53 @@ export async function* readGeoJSON(file: InputFile, options: ReadOptions, sink: 
     } else if (summary.nonStandard) {
       sink.warn({ message: `the file declares its CRS with the "crs" member (${describeCrsMember(root.crs)}), which RFC 7946 §4 removed; it was honoured as ${summary.code}`, action: "note" });
     }
-    gate = new FeatureGate(file.name, resolved, sink);
+    gate = new FeatureGate(file.name, resolved, sink, multiline ? (i) => `line ${lineOf.get(i) ?? "?"}` : undefined);
     return gate;
   };
+  // Feature index -> line, for messages in files laid out over several lines.
+  const lineOf = new Map<number, number>();
 
-  const parse = (text: string, offset: number, feature?: number): unknown => {
-    const r = parseJson(text);
-    if (r.ok) return r.value;
-    const at = offset + Buffer.byteLength(text.slice(0, r.problem.index));
-    return fail(`invalid JSON: ${r.problem.message}`, "Fix the JSON syntax at this position (NaN, Infinity and unquoted text are not allowed in JSON)", at, feature);
-  };
+  function* take(pieces: JsonPiece[]): Generator<FeatureItem> {
+    for (const piece of pieces) {
+      if (piece.kind === "member") {
+        root[piece.key] = piece.value;
+        if (piece.key === "type" && typeof piece.value === "string" && piece.value !== "FeatureCollection" && sawFeatures) {
+          fail(`the root has a "features" array but "type" is ${JSON.stringify(piece.value)}`, 'A file with a "features" array must be a FeatureCollection (RFC 7946 §3.3)');
+        }
+        if (piece.key === "features") {
+          fail(`"features" is ${describeValue(piece.value)}, not an array`, 'A FeatureCollection\'s "features" must be an array of Feature objects (RFC 7946 §3.3)');
+        }
+        if (piece.key === "crs" && gate && !options.crs) {
+          fail('the "crs" member comes after the features, so the features were read as WGS 84', 'Move the "crs" member before "features", or give the CRS as an EPSG code (the crs option)');
+        }
+      } else if (piece.kind === "features-open") {
+        sawFeatures = true;
+        if (root.type !== undefined && root.type !== "FeatureCollection") {
+          fail(`the root has a "features" array but "type" is ${JSON.stringify(root.type)}`, 'A file with a "features" array must be a FeatureCollection (RFC 7946 §3.3)');
+        }
+        openGate();
+      } else if (piece.kind === "feature") {
+        lineOf.clear();
+        lineOf.set(piece.index, piece.line);
+        const item = openGate().accept(piece.value, piece.index);
+        if (item) yield item;
+      } else {
+        rootValue = piece.value;
+      }
+    }
+  }
 
   try {
     for await (const chunk of createReadStream(file.path, { highWaterMark: CHUNK_BYTES })) {
-      const events = scanner.push(chunk as Buffer);
-      for (const ev of events) {
-        lastOffset = ev.offset;
-        if (ev.kind === "member") {
-          root[ev.key] = parse(ev.text, ev.offset);
-          if (ev.key === "type" && typeof root.type === "string" && root.type !== "FeatureCollection" && sawFeatures) {
-            fail(`the root has a "features" array but "type" is ${JSON.stringify(root.type)}`, 'A file with a "features" array must be a FeatureCollection (RFC 7946 §3.3)');
-          }
-        } else if (ev.kind === "features-open") {
-          sawFeatures = true;
-          if (root.type !== undefined && root.type !== "FeatureCollection") {
-            fail(`the root has a "features" array but "type" is ${JSON.stringify(root.type)}`, 'A file with a "features" array must be a FeatureCollection (RFC 7946 §3.3)', ev.offset);
-          }
-          openGate();
-        } else if (ev.kind === "feature") {
-          const raw = parse(ev.text, ev.offset, ev.index);
-          let item: FeatureItem | null;
-          try {
-            item = openGate().accept(raw, ev.index);
-          } catch (error) {
-            if (error instanceof DatasetInputError && error.offset === undefined) {
-              throw new DatasetInputError({ file: error.file, feature: error.feature, offset: ev.offset, reason: error.reason, hint: error.hint });
-            }
-            throw error;
-          }
-          if (item) yield item;
-        }
-      }
+      const bytes = chunk as Buffer;
+      if (!multiline && !gate && bytes.includes(0x0a)) multiline = true;
+      yield* take(stream.push(bytes));
+      stream.check();
     }
-    scanner.end();
+    yield* take(stream.end());
+    stream.check();
   } catch (error) {
-    if (error instanceof ScanError) fail(error.reason, error.hint, error.offset, error.feature);
+    if (error instanceof JsonStreamError) fail(located(error, multiline), error.hint, error.unit, error.offset);
     throw error;
   }
 
@@ -94,7 +99,7 @@ export async function* readGeoJSON(file: InputFile, options: ReadOptions, sink: 
   }
   // A single Feature or a bare geometry.
   const type = root.type;
-  if (type === "FeatureCollection") fail('the FeatureCollection has no "features" array', 'Add a "features" array of Feature objects (RFC 7946 §3.3)', lastOffset);
+  if (type === "FeatureCollection") fail('the FeatureCollection has no "features" array', 'Add a "features" array of Feature objects (RFC 7946 §3.3)');
   if (typeof type !== "string") {
     fail(
       type === undefined ? 'the JSON object has no "type" member, so it is not GeoJSON' : `"type" is ${describeValue(type)}`,
@@ -102,20 +107,26 @@ export async function* readGeoJSON(file: InputFile, options: ReadOptions, sink: 
     );
   }
   let raw: unknown;
-  if (type === "Feature") raw = root;
-  else if (GEOMETRY_TYPES.has(type as string)) raw = { type: "Feature", properties: null, geometry: root };
+  if (type === "Feature") raw = rootValue;
+  else if (GEOMETRY_TYPES.has(type as string)) raw = { type: "Feature", properties: null, geometry: rootValue };
   else fail(`"type" is ${JSON.stringify(type)}, which is not a GeoJSON type`, "GeoJSON's root must be a FeatureCollection, a Feature or a geometry (RFC 7946 §3)");
+  lineOf.set(0, 1);
   const item = openGate().accept(raw, 0);
   if (item) yield item;
   openGate().finish();
 }
 
+/** Adds the line to a syntax problem when the text has lines to count. */
+function located(error: JsonStreamError, multiline: boolean): string {
+  return multiline ? `line ${error.line}: ${error.reason}` : error.reason;
+}
+
 /**
  * Newline-delimited GeoJSON (one Feature per line) and GeoJSON text sequences (RFC 8142: each
- * text starts with the record separator 0x1E and ends with a line feed). A line may hold a
- * Feature, a bare geometry (wrapped), or a FeatureCollection (its features taken in order).
- * Blank lines are ignored. RFC 8142 §2.4: a last text without its closing line feed may be
- * truncated; if it does not parse it is skipped with a warning rather than refused.
+ * text starts with the record separator 0x1E and ends with a line feed), both read as a sequence
+ * of JSON values through the same tokenizer. A record may hold a Feature, a bare geometry
+ * (wrapped), or a FeatureCollection (its features taken in order). Blank lines are ignored.
+ * RFC 8142 §2.4: a last text cut short is skipped with a warning rather than refused.
  */
 export async function* readJsonLines(file: InputFile, options: ReadOptions, sink: ReaderSink, sequence: boolean): AsyncGenerator<FeatureItem> {
   const { summary, resolved } = geojsonCrs(file.name, undefined, options);
@@ -123,96 +134,56 @@ export async function* readJsonLines(file: InputFile, options: ReadOptions, sink
   const gate = new FeatureGate(file.name, resolved, sink, (i) => `line ${lineOf.get(i) ?? "?"}`);
   // Feature index -> line number, for messages; only the current feature's entry is kept.
   const lineOf = new Map<number, number>();
+  const stream = new JsonStream("sequence", MAX_FEATURE_BYTES);
   let index = 0;
-  let pending: Buffer[] = [];
-  let pendingBytes = 0;
-  let lineStart = 0; // byte offset of the current line
-  let lineNo = 1;
-  let base = 0;
 
-  function* handle(buf: Buffer, offset: number, line: number, complete: boolean): Generator<FeatureItem> {
-    let start = 0;
-    while (start < buf.length && (buf[start] === 0x20 || buf[start] === 0x09 || buf[start] === 0x0d || buf[start] === 0x1e)) start++;
-    if (start === buf.length) return;
-    const text = buf.subarray(start).toString("utf8");
-    const r = parseJson(text);
-    if (!r.ok) {
-      if (!complete && sequence) {
-        sink.warn({ message: `line ${line}: the last text has no closing line feed and does not parse; it looks truncated and was skipped (RFC 8142 §2.4)`, action: "note" });
-        return;
+  function* take(pieces: JsonPiece[]): Generator<FeatureItem> {
+    for (const piece of pieces) {
+      if (piece.kind !== "root") continue;
+      const value = piece.value as Record<string, unknown>;
+      const parts: unknown[] =
+        value.type === "FeatureCollection" && Array.isArray(value.features)
+          ? (value.features as unknown[])
+          : typeof value.type === "string" && GEOMETRY_TYPES.has(value.type)
+            ? [{ type: "Feature", properties: null, geometry: value }]
+            : [value];
+      for (const raw of parts) {
+        lineOf.clear();
+        lineOf.set(index, piece.line);
+        const item = gate.accept(raw, index);
+        index++;
+        if (item) yield item;
       }
-      throw new DatasetInputError({
-        file: file.name,
-        feature: index,
-        offset: offset + start + Buffer.byteLength(text.slice(0, r.problem.index)),
-        reason: `line ${line}: invalid JSON: ${r.problem.message}`,
-        hint: sequence ? "Each text of a GeoJSON sequence must be one complete JSON value (RFC 8142)" : "Each line of newline-delimited GeoJSON must be one complete JSON object",
-      });
-    }
-    const value = r.value as Record<string, unknown> | null;
-    const parts: unknown[] =
-      value && typeof value === "object" && value.type === "FeatureCollection" && Array.isArray(value.features)
-        ? (value.features as unknown[])
-        : value && typeof value === "object" && typeof value.type === "string" && GEOMETRY_TYPES.has(value.type)
-          ? [{ type: "Feature", properties: null, geometry: value }]
-          : [value];
-    for (const raw of parts) {
-      lineOf.clear();
-      lineOf.set(index, line);
-      let item: FeatureItem | null;
-      try {
-        item = gate.accept(raw, index);
-      } catch (error) {
-        if (error instanceof DatasetInputError && error.offset === undefined) {
-          throw new DatasetInputError({ file: error.file, feature: error.feature, offset: offset + start, reason: error.reason, hint: error.hint });
-        }
-        throw error;
-      }
-      index++;
-      if (item) yield item;
     }
   }
 
-  const SEP = sequence ? 0x1e : 0x0a;
-  for await (const c of createReadStream(file.path, { highWaterMark: CHUNK_BYTES })) {
-    const chunk = c as Buffer;
-    let from = 0;
-    for (;;) {
-      const at = chunk.indexOf(SEP, from);
-      if (at < 0) break;
-      const piece = chunk.subarray(from, at);
-      const line = pending.length ? Buffer.concat([...pending, piece]) : piece;
-      pending = [];
-      pendingBytes = 0;
-      if (sequence) {
-        // The separator starts the next text; the text before it ends with its line feed.
-        yield* handle(line, lineStart, lineNo, line.length === 0 || line[line.length - 1] === 0x0a);
-      } else {
-        yield* handle(line, lineStart, lineNo, true);
-      }
-      lineNo++;
-      lineStart = base + at + 1;
-      from = at + 1;
+  const hint = sequence ? "Each text of a GeoJSON sequence must be one complete JSON value (RFC 8142)" : "Each line of newline-delimited GeoJSON must be one complete JSON object";
+  const refuse = (error: JsonStreamError): never => {
+    throw new DatasetInputError({ file: file.name, feature: error.unit === undefined ? undefined : index, offset: error.offset, reason: `line ${error.line}: ${error.reason}`, hint: error.reason.startsWith("invalid JSON") ? hint : error.hint });
+  };
+
+  try {
+    for await (const chunk of createReadStream(file.path, { highWaterMark: CHUNK_BYTES })) {
+      const bytes = chunk as Buffer;
+      // RFC 8142's separator only ever stands between texts; as whitespace it leaves a sequence of values.
+      for (let at = bytes.indexOf(RECORD_SEPARATOR); at >= 0; at = bytes.indexOf(RECORD_SEPARATOR, at + 1)) bytes[at] = 0x20;
+      yield* take(stream.push(bytes));
+      stream.check();
     }
-    if (from < chunk.length) {
-      const rest = chunk.subarray(from);
-      pending.push(rest);
-      pendingBytes += rest.length;
-      if (pendingBytes > MAX_FEATURE_BYTES) {
-        throw new DatasetInputError({
-          file: file.name,
-          feature: index,
-          offset: lineStart,
-          reason: `line ${lineNo} is longer than ${Math.round(MAX_FEATURE_BYTES / 1e6)} MB`,
-          hint: sequence ? "Split very large geometries into several features" : "Check that the file really is newline-delimited (one Feature per line); otherwise name it .geojson",
-        });
-      }
-    }
-    base += chunk.length;
+  } catch (error) {
+    if (error instanceof JsonStreamError) refuse(error);
+    throw error;
   }
-  if (pending.length) {
-    const line = Buffer.concat(pending);
-    yield* handle(line, lineStart, lineNo, !sequence || line[line.length - 1] === 0x0a);
+  try {
+    yield* take(stream.end());
+    stream.check();
+  } catch (error) {
+    if (!(error instanceof JsonStreamError)) throw error;
+    if (sequence && error.reason.startsWith("the file ends unexpectedly")) {
+      sink.warn({ message: `line ${error.line}: the last text is truncated (cut short) and was skipped (RFC 8142 §2.4)`, action: "note" });
+    } else {
+      refuse(error);
+    }
   }
   gate.finish();
 }
