@@ -19,7 +19,9 @@ import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { setFlagsFromString } from "node:v8";
 import { runInNewContext } from "node:vm";
+import { writeFile } from "node:fs/promises";
 import { parseInBatches } from "@loaders.gl/core";
+import shpwrite from "@mapbox/shp-write";
 import { JSONLoader } from "@loaders.gl/json";
 import { inspectDataset, readFeatures, writeOutput, type GeoJSONFeature, type OutputFormat } from "../../app/formats";
 
@@ -163,6 +165,22 @@ const PHASES: Phase[] = [
       return { vertices, bytes: statSync(input).size };
     },
   },
+  // The widely used npm Shapefile writer takes the whole FeatureCollection and builds every file
+  // in memory, growing its arrays feature by feature; it is the reference for why Lissom writes
+  // .shp/.shx itself. Its time grows about quadratically (2 M vertices ran for over ten minutes
+  // at 2.8 GB), so it runs on 1/200 and 1/50 of the dataset.
+  ...[200, 50].map((part): Phase => ({
+    name: `reference: @mapbox/shp-write, 1/${part} of the data`,
+    run: async (dir, N) => {
+      const features: GeoJSONFeature[] = [];
+      for await (const f of generate(Math.round(N / part), false)) features.push(f);
+      const zip = (await shpwrite.zip({ type: "FeatureCollection", features } as never, { outputType: "nodebuffer", compression: "DEFLATE" } as never)) as unknown as Buffer;
+      await writeFile(join(dir, `reference-shp-write-${part}.zip`), zip);
+      let vertices = 0;
+      for (const f of features) vertices += (f.geometry.coordinates as unknown[]).length;
+      return { vertices, bytes: zip.length };
+    },
+  })),
 ];
 
 /** Runs one phase in a fresh Node process (same loader flags), so each peak memory is its own. */
@@ -196,11 +214,11 @@ export default async function formatsBench(): Promise<void> {
     const parseRow = rows.find((r) => r.phase === "reference: JSON.parse whole file")!;
     const loadersRow = rows.find((r) => r.phase === "reference: @loaders.gl/json streaming")!;
     const pad = (t: string, n: number) => t.padEnd(n);
-    console.log(`${pad("phase", 40)} ${"vertices/s".padStart(12)} ${"time s".padStart(8)} ${"MB/s".padStart(7)} ${"peak RSS MB".padStart(12)} ${"peak heap MB".padStart(13)}`);
+    console.log(`${pad("phase", 52)} ${"vertices/s".padStart(12)} ${"time s".padStart(8)} ${"MB/s".padStart(7)} ${"peak RSS MB".padStart(12)} ${"peak heap MB".padStart(13)}`);
     for (const r of rows) {
       const vps = r.vertices / (r.ms / 1000);
       const mbs = r.bytes ? (r.bytes / MB / (r.ms / 1000)).toFixed(1) : "";
-      console.log(`${pad(r.phase, 40)} ${Math.round(vps).toLocaleString("en").padStart(12)} ${(r.ms / 1000).toFixed(2).padStart(8)} ${mbs.padStart(7)} ${(r.peakRss / MB).toFixed(0).padStart(12)} ${(r.peakHeap / MB).toFixed(0).padStart(13)}`);
+      console.log(`${pad(r.phase, 52)} ${Math.round(vps).toLocaleString("en").padStart(12)} ${(r.ms / 1000).toFixed(2).padStart(8)} ${mbs.padStart(7)} ${(r.peakRss / MB).toFixed(0).padStart(12)} ${(r.peakHeap / MB).toFixed(0).padStart(13)}`);
     }
     const ours = rows.find((r) => r.phase === "read geojson (readFeatures)")!;
     const ratio = parseRow.ms / ours.ms;
@@ -208,9 +226,16 @@ export default async function formatsBench(): Promise<void> {
     const streaming = rows.filter((r) => !r.phase.startsWith("reference"));
     const worst = streaming.reduce((a, r) => (r.peakRss > a.peakRss ? r : a));
     console.log(`GeoJSON reading vs JSON.parse (same file, same run; both include reading the file): ${ratio.toFixed(2)}× (target ≥ 0.5×); @loaders.gl/json streaming: ${loadersRatio.toFixed(2)}×`);
+    const ourShp = rows.find((r) => r.phase === "write shapefile (with curves)")!;
+    const [refSmall, refLarge] = [200, 50].map((part) => rows.find((r) => r.phase === `reference: @mapbox/shp-write, 1/${part} of the data`)!);
+    const vps = (r: Row) => r.vertices / (r.ms / 1000);
+    console.log(
+      `zipped Shapefile: Lissom's streaming writer at ${ourShp.vertices.toLocaleString("en")} vertices runs ${(vps(ourShp) / vps(refLarge!)).toFixed(1)}× the vertices/s of @mapbox/shp-write at ${refLarge!.vertices.toLocaleString("en")}; ` +
+        `that writer's time grew ${(refLarge!.ms / refSmall!.ms).toFixed(1)}× for 4× the data (from ${refSmall!.vertices.toLocaleString("en")} vertices)`,
+    );
     console.log(`peak resident memory of the streaming phases: ${(worst.peakRss / MB).toFixed(0)} MB in "${worst.phase}" (target < 300 MB); JSON.parse reference: ${(parseRow.peakRss / MB).toFixed(0)} MB`);
     const expected = Math.ceil(N / PER_FEATURE) * PER_FEATURE;
-    const checks = rows.filter((r) => r.phase.startsWith("read") || r.phase.startsWith("reference")).every((r) => r.vertices === expected);
+    const checks = rows.filter((r) => r.phase.startsWith("read") || (r.phase.startsWith("reference") && !r.phase.includes("shp-write"))).every((r) => r.vertices === expected);
     console.log(`every reader saw all ${expected.toLocaleString("en")} vertices: ${checks ? "yes" : "NO"}`);
   } finally {
     await rm(dir, { recursive: true, force: true });

@@ -126,6 +126,21 @@ describe("Shapefile writing, checked with the shapefile package", () => {
     expect(JSON.parse(readFileSync(f["parcels.metadata.json"]!, "utf8")).dbfFieldNames).toEqual({ "parcels.dbf": { parcel_identifier_long_name: "parcel_ide" } });
   });
 
+  it("fits attribute values to dBase fields: text cut between UTF-8 characters, numbers rounded, notes kept", async () => {
+    const dest = s.path("long.zip");
+    const line = (properties: Record<string, unknown>): GeoJSONFeature => ({ type: "Feature", properties, geometry: { type: "LineString", coordinates: [[0, 0], [10, 5]] } });
+    // 200 two-byte characters: 400 bytes, over the 254-byte text field (dBase III limit, common practice).
+    const r = await writeOutput("shapefile", from([line({ note: "é".repeat(200), ratio: 0.1 + 0.2, count: 12345678901234 }), line({ note: "short", ratio: 2.5, count: 7 })]), dest, { crs: "EPSG:32630" });
+    expect(r.notes.some((n) => /1 text values were cut/.test(n))).toBe(true);
+    const f = await unzip(dest, s.path("long-unzipped"));
+    const collection = await shapefile.read(readFileSync(f["long.shp"]!), readFileSync(f["long.dbf"]!), { encoding: "utf-8" });
+    const [first, second] = collection.features.map((x) => x.properties as Record<string, unknown>);
+    expect(first!.note).toBe("é".repeat(127)); // 254 bytes, no half character
+    expect(first!.ratio).toBeCloseTo(0.3, 15);
+    expect(first!.count).toBe(12345678901234);
+    expect(second).toEqual({ note: "short", ratio: 2.5, count: 7 });
+  });
+
   it("puts lines and polygons of one dataset into two Shapefiles of the archive", async () => {
     const dest = s.path("town.zip");
     const lines = roads.map((r) => ({ ...r, geometry: { ...r.geometry, coordinates: r.geometry.type === "LineString" ? r.geometry.coordinates.map((p) => [p[0]! - 451000, p[1]! - 205000]) : r.geometry.coordinates } }));
