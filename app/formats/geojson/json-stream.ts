@@ -112,9 +112,12 @@ export class JsonStream {
     if (nul >= 0) {
       throw new JsonStreamError("the text holds a NUL byte (0x00), which JSON text never contains", "The file is binary or damaged; export it again as GeoJSON text", this.tokenizer.line, this.unitIndex(), this.bytes + nul);
     }
+    let text = this.decoder.write(bytes);
+    // RFC 8259 §8.1: a byte order mark before the text may be ignored; editors on some systems add one.
+    if (this.bytes === 0 && text.charCodeAt(0) === 0xfeff) text = text.slice(1);
     this.bytes += bytes.length;
     this.unitBytes += bytes.length;
-    this.write(this.decoder.write(bytes));
+    this.write(text);
     if (this.failure) return this.drain();
     if (this.stack.length > 0 && this.unitBytes > this.maxUnitBytes) {
       const mb = Math.round(this.maxUnitBytes / 1e6);
@@ -252,7 +255,9 @@ export class JsonStream {
       return new JsonStreamError(`extra content after the end of the GeoJSON object (found ${found})`, "Remove what follows the closing '}' of the GeoJSON object", line);
     }
     let reason: string;
-    let at = unit;
+    // The tokenizer opens an object only once its first key has been read, so a problem in that
+    // first key sits in the feature about to open.
+    let at = unit ?? (this.inFeatures() && this.stack.length === 2 ? this.features : undefined);
     if (ch === "N" || ch === "I" || /started with (N|I)/.test(raw) || (raw === "Invalid symbol in number" && ch === "I")) {
       reason = `${ch === "N" ? "'NaN'" : "'Infinity'"} is not a JSON number (JSON has no NaN or Infinity)`;
     } else if (raw === "Bad array") {
@@ -277,6 +282,7 @@ export class JsonStream {
 function describeChar(ch: string): string {
   if (!ch) return "the end of the text";
   const code = ch.charCodeAt(0);
+  if (ch === "'") return `"'"`;
   if (code >= 0x20 && code < 0x7f) return `'${ch}'`;
   return `U+${code.toString(16).toUpperCase().padStart(4, "0")}`;
 }

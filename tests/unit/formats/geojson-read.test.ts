@@ -68,6 +68,12 @@ describe("GeoJSON reading", () => {
     }
   });
 
+  it("ignores a byte order mark before the text (RFC 8259 §8.1)", async () => {
+    const text = JSON.stringify({ type: "FeatureCollection", features: [line([[0, 0], [1, 1]], { k: 1 })] });
+    const items = await collect(readFeatures([s.file("bom.geojson", Buffer.concat([Buffer.from([0xef, 0xbb, 0xbf]), Buffer.from(text)]))]));
+    expect(items.map((i) => i.feature.properties)).toEqual([{ k: 1 }]);
+  });
+
   it("accepts a single Feature and a bare geometry", async () => {
     const a = await collect(readFeatures([s.file("one.geojson", JSON.stringify(line([[0, 0], [1, 1]], { k: 1 })))]));
     expect(a).toHaveLength(1);
@@ -147,6 +153,9 @@ describe("GeoJSON reading", () => {
     expect(nan.message).toMatch(/^nan\.geojson: feature 0: invalid JSON: 'NaN' is not a JSON number/);
     const pretty = await refusal("pretty.geojson", nanText.replace(/\{"type":"Feature"/g, '\n  {"type":"Feature"').replace('[NaN', '\n    [NaN'));
     expect(pretty.message).toMatch(/^pretty\.geojson: feature 0: line 3: invalid JSON: 'NaN' is not a JSON number/);
+
+    const unquoted = await refusal("keys.geojson", '{"type":"FeatureCollection","features":[{type:"Feature"}]}');
+    expect(unquoted.message).toMatch(/^keys\.geojson: feature 0: invalid JSON: an object key must be text in double quotes, found 't'/);
 
     const projected = await refusal("proj.geojson", JSON.stringify({ type: "FeatureCollection", features: [line([[1, 1], [2, 2]]), line([[512000, 6200000], [512010, 6200010]])] }));
     expect(projected.feature).toBe(1);
