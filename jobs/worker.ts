@@ -6,6 +6,7 @@
 import { closeDatabase, migrateDatabase } from "../app/.server/db/client.server";
 import { env } from "../app/.server/env.server";
 import { logger } from "../app/.server/logger.server";
+import { sweepStaleStaging } from "../app/.server/storage.server";
 import { closeQueue } from "./queue";
 import { runnerSettings } from "./runner/settings";
 import { shutdownJobWorker, startJobWorker } from "./worker-core";
@@ -23,6 +24,8 @@ process.on("SIGTERM", () => void shutdown("SIGTERM"));
 process.on("SIGINT", () => void shutdown("SIGINT"));
 
 await migrateDatabase();
+const swept = await sweepStaleStaging();
+if (swept > 0) logger.info({ folders: swept }, "removed staging folders left by stopped processes");
 if (!stopping) {
   worker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
   logger.info({ concurrency: settings.WORKER_CONCURRENCY, pid: process.pid }, "worker started");

@@ -6,6 +6,7 @@ import { requeueLostJobs, startReconciler } from "./jobs.server";
 import { logger } from "./logger.server";
 import { startSchedules } from "./schedules.server";
 import { seedDemo } from "./seed.server";
+import { sweepStaleStaging } from "./storage.server";
 
 let booting: Promise<void> | undefined;
 let embeddedWorker: Worker | undefined;
@@ -19,6 +20,8 @@ export function boot(): Promise<void> {
     const settings = env();
     await migrateDatabase();
     if (settings.demo) await seedDemo();
+    const swept = await sweepStaleStaging();
+    if (swept > 0) logger.info({ folders: swept }, "removed staging folders left by stopped processes");
     if (!settings.REDIS_URL) {
       embeddedWorker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
       logger.info("Queue: embedded (in-memory Redis fake); jobs run inside this process.");

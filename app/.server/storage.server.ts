@@ -1,5 +1,5 @@
 import { randomUUID } from "node:crypto";
-import { mkdir, rename, rm, stat } from "node:fs/promises";
+import { mkdir, readdir, rename, rm, stat } from "node:fs/promises";
 import { join, resolve, sep } from "node:path";
 import { env } from "./env.server";
 
@@ -41,4 +41,42 @@ export async function removeStored(relativeOrAbsolute: string): Promise<void> {
 
 export async function fileSize(path: string): Promise<number> {
   return (await stat(path)).size;
+}
+
+/** Staging folders untouched for this long belong to a process that died (a day; jobs write continually). */
+export const STAGING_MAX_AGE_MS = 24 * 60 * 60 * 1000;
+
+/**
+ * Removes staging folders left by processes that were killed mid-write: those in which nothing
+ * has been written for `maxAgeMs`. A folder in use is written to continually (an upload or a
+ * job's outputs), so its newest file stays recent. Returns the number of folders removed.
+ */
+export async function sweepStaleStaging(maxAgeMs: number = STAGING_MAX_AGE_MS, now: number = Date.now()): Promise<number> {
+  const root = join(storageRoot(), "staging");
+  let names: string[];
+  try {
+    names = await readdir(root);
+  } catch {
+    return 0;
+  }
+  let removed = 0;
+  for (const name of names) {
+    const dir = join(root, name);
+    const newest = await newestWrite(dir).catch(() => now);
+    if (now - newest > maxAgeMs) {
+      await rm(dir, { recursive: true, force: true });
+      removed++;
+    }
+  }
+  return removed;
+}
+
+/** The latest modification time of a folder and everything in it. */
+async function newestWrite(path: string): Promise<number> {
+  const info = await stat(path);
+  let newest = info.mtimeMs;
+  if (info.isDirectory()) {
+    for (const entry of await readdir(path)) newest = Math.max(newest, await newestWrite(join(path, entry)));
+  }
+  return newest;
 }
