@@ -18,6 +18,7 @@ import { dirname, join } from "node:path";
 import { fileURLToPath, pathToFileURL } from "node:url";
 import type { Feature, FeatureCollection, LineString, Polygon, Position } from "geojson";
 import proj4 from "proj4";
+import { writeOutput, type GeoJSONFeature } from "../app/formats";
 
 // ---------------------------------------------------------------------------------------------
 // Plain data types
@@ -668,6 +669,42 @@ export function renderTownFiles(options: TownOptions = {}): Record<string, strin
 
 export const SAMPLES_DIR = dirname(fileURLToPath(import.meta.url));
 
+/** The zipped Shapefile sample: the town's lines in a projected CRS, as engineers often receive them. */
+export const SHAPEFILE_SAMPLE = `${TOWN_SLUG}-lines-utm26n.zip`;
+/** UTM zone 26 N (WGS 84): the zone of 27.35° W (zones are 6° wide from 180° W; common practice). */
+export const SHAPEFILE_SAMPLE_CRS = "EPSG:32626";
+const UTM_26N = "+proj=utm +zone=26 +datum=WGS84 +units=m +no_defs";
+
+/**
+ * Roads, river and contours (the line features; a Shapefile holds one shape type) projected to
+ * UTM zone 26 N with proj4, to the millimetre, and written as a zipped Shapefile with .prj and .cpg
+ * by Lissom's own writer. Its .dbf header and metadata carry the day they were written, so the
+ * committed file is compared with a fresh one by content, not byte for byte.
+ */
+export async function writeTownShapefile(dir: string = SAMPLES_DIR, options: TownOptions = {}): Promise<string> {
+  const town = generateTown(options);
+  const toUtm = proj4("WGS84", UTM_26N);
+  const features = town.features
+    .filter((f) => f.kind !== "shore")
+    .map((f): GeoJSONFeature => {
+      const wgs = featureOf(f, town.sigma, town.spacing);
+      const coordinates = (wgs.geometry as LineString).coordinates.map((p) => toUtm.forward([p[0]!, p[1]!]).map((v) => Math.round(v * 1000) / 1000));
+      return { type: "Feature", properties: wgs.properties as Record<string, unknown>, geometry: { type: "LineString", coordinates } };
+    });
+  async function* each() {
+    yield* features;
+  }
+  const path = join(dir, SHAPEFILE_SAMPLE);
+  await writeOutput("shapefile", each(), path, {
+    crs: SHAPEFILE_SAMPLE_CRS,
+    tolerance_m: null,
+    steps: [],
+    source: { dataset: "Brindlewick lines (invented demo data, samples/generate.ts)" },
+    title: DESCRIPTION,
+  });
+  return path;
+}
+
 /** Write the sample files into `dir` (default: this folder). Returns the paths written. */
 export function writeTownFiles(dir: string = SAMPLES_DIR, options: TownOptions = {}): string[] {
   mkdirSync(dir, { recursive: true });
@@ -680,4 +717,5 @@ export function writeTownFiles(dir: string = SAMPLES_DIR, options: TownOptions =
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
   for (const path of writeTownFiles()) console.log(`wrote ${path}`);
+  console.log(`wrote ${await writeTownShapefile()}`);
 }

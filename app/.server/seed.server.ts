@@ -15,7 +15,7 @@ export const DEMO_ACCOUNTS: { email: string; name: string; role: RoleName }[] = 
   { email: "consumer@example.com", name: "Demo consumer", role: "consumer" },
 ];
 
-/** Demo mode: the four accounts and one sample dataset, created once. */
+/** Demo mode: the four accounts and the sample datasets, created once. */
 export async function seedDemo(): Promise<void> {
   const ctx = await auth().$context;
   for (const account of DEMO_ACCOUNTS) {
@@ -37,24 +37,29 @@ export async function seedDemo(): Promise<void> {
     `Demo mode: sign in as ${DEMO_ACCOUNTS.map((a) => a.email).join(", ")} with password "${DEMO_PASSWORD}". Set NODE_ENV=production (without LISSOM_DEMO) to turn demo mode off.`,
   );
 
-  const sample = demoSampleFile();
-  if (!sample) {
+  const samples = demoSampleFiles();
+  if (samples.length === 0) {
     logger.warn("No sample dataset found under samples/; run `npm run samples` to generate them.");
     return;
   }
-  const name = sample.name.replace(/\.geojson$/, "");
-  const already = await db().query.datasets.findFirst({ where: eq(schema.datasets.name, name) });
-  if (already) return;
   const engineer = await db().query.user.findFirst({ where: eq(schema.user.email, "engineer@example.com") });
-  await ingestFile(name, sample.path, engineer?.id ?? null);
-  logger.info({ dataset: name }, "Demo mode: loaded a sample dataset");
+  for (const sample of samples) {
+    const already = await db().query.datasets.findFirst({ where: eq(schema.datasets.name, sample.name) });
+    if (already) continue;
+    await ingestFile(sample.name, sample.path, engineer?.id ?? null);
+    logger.info({ dataset: sample.name }, "Demo mode: loaded a sample dataset");
+  }
 }
 
-/** The roads of the samples' invented town, if the generator's files are present. */
-function demoSampleFile(): { name: string; path: string } | null {
+/**
+ * The samples' invented town, if the generator's files are present: its roads as GeoJSON and
+ * its lines as a zipped Shapefile in a projected CRS.
+ */
+function demoSampleFiles(): { name: string; path: string }[] {
   const dir = resolve("samples");
-  if (!existsSync(dir)) return null;
-  const files = readdirSync(dir).filter((f) => f.endsWith(".geojson")).sort();
-  const pick = files.find((f) => f.endsWith("-roads.geojson")) ?? files[0];
-  return pick ? { name: pick, path: join(dir, pick) } : null;
+  if (!existsSync(dir)) return [];
+  const files = readdirSync(dir).sort();
+  const geojson = files.filter((f) => f.endsWith(".geojson"));
+  const picks = [geojson.find((f) => f.endsWith("-roads.geojson")) ?? geojson[0], files.find((f) => f.endsWith(".zip"))];
+  return picks.filter((f): f is string => Boolean(f)).map((f) => ({ name: f.replace(/\.(geojson|zip)$/, ""), path: join(dir, f) }));
 }

@@ -1,5 +1,9 @@
-import { statSync } from "node:fs";
+import { mkdtempSync, rmSync, statSync } from "node:fs";
+import { tmpdir } from "node:os";
 import { join } from "node:path";
+import proj4 from "proj4";
+import * as shapefile from "shapefile";
+import yauzl from "yauzl";
 import { describe, expect, it } from "vitest";
 import {
   DEFAULT_SEED,
@@ -9,6 +13,9 @@ import {
   mulberry32,
   noisyTrace,
   renderTownFiles,
+  SHAPEFILE_SAMPLE,
+  TOWN_SLUG,
+  writeTownShapefile,
 } from "../../../samples/generate";
 import { GEOJSON_FILES, TRUTH_FILE, readSample } from "./helpers";
 
@@ -116,5 +123,59 @@ describe("large datasets", () => {
     const dx = (q[0] - p[0]) % 8000;
     const dy = (q[1] - p[1]) % 8000;
     expect(Math.abs(dx) + Math.abs(dy)).toBeGreaterThan(1e-6);
+  });
+});
+
+describe("the zipped Shapefile sample", () => {
+  /** The archive's entries by extension, as buffers. */
+  async function entries(path: string): Promise<Record<string, Buffer>> {
+    const zip = await yauzl.openPromise(path, { lazyEntries: true });
+    const out: Record<string, Buffer> = {};
+    for await (const entry of zip.eachEntry()) {
+      const chunks: Buffer[] = [];
+      for await (const c of await zip.openReadStreamPromise(entry)) chunks.push(c as Buffer);
+      out[entry.fileName.replace(/^.*\./, "")] = Buffer.concat(chunks);
+    }
+    zip.close();
+    return out;
+  }
+
+  it("holds what a fresh run of the generator writes (read back with the shapefile package)", async () => {
+    const dir = mkdtempSync(join(tmpdir(), "lissom-samples-"));
+    try {
+      const fresh = await entries(await writeTownShapefile(dir));
+      const committed = await entries(join(SAMPLES_DIR, SHAPEFILE_SAMPLE));
+      expect(Object.keys(committed).sort()).toEqual(["cpg", "dbf", "json", "prj", "shp", "shx"]);
+      // Geometry and index files carry no date: byte for byte.
+      expect(committed.shp!.equals(fresh.shp!)).toBe(true);
+      expect(committed.shx!.equals(fresh.shx!)).toBe(true);
+      expect(committed.prj!.toString()).toBe(fresh.prj!.toString());
+      expect(committed.cpg!.toString()).toBe("UTF-8");
+      // The .dbf header holds the day it was written (dBase III), so compare the records.
+      const read = (e: Record<string, Buffer>) => shapefile.read(e.shp!, e.dbf!, { encoding: "utf-8" });
+      const [a, b] = await Promise.all([read(committed), read(fresh)]);
+      expect(a.features.map((f) => f.properties)).toEqual(b.features.map((f) => f.properties));
+      expect(a.features.map((f) => f.properties!.name)).toContain("River Sallow");
+      expect(statSync(join(SAMPLES_DIR, SHAPEFILE_SAMPLE)).size).toBeLessThan(1_000_000);
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
+  });
+
+  it("is the town's lines in UTM zone 26 N: proj4 maps it back onto the WGS 84 sample", async () => {
+    const shp = await entries(join(SAMPLES_DIR, SHAPEFILE_SAMPLE));
+    const lines = await shapefile.read(shp.shp!, shp.dbf!, { encoding: "utf-8" });
+    const wgs = JSON.parse(readSample(`${TOWN_SLUG}-river.geojson`)) as { features: { geometry: { coordinates: number[][] } }[] };
+    const river = lines.features.find((f) => f.properties!.name === "River Sallow")!;
+    const back = proj4("+proj=utm +zone=26 +datum=WGS84 +units=m +no_defs", "WGS84");
+    const projected = (river.geometry as { coordinates: number[][] }).coordinates;
+    const original = wgs.features[0]!.geometry.coordinates;
+    expect(projected.length).toBe(original.length);
+    // Rounded to the millimetre in UTM and to 1e-7° in the GeoJSON: agree within 2e-7°.
+    projected.forEach((p, i) => {
+      const [lon, lat] = back.forward(p as [number, number]);
+      expect(Math.abs(lon! - original[i]![0]!)).toBeLessThan(2e-7);
+      expect(Math.abs(lat! - original[i]![1]!)).toBeLessThan(2e-7);
+    });
   });
 });
