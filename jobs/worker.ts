@@ -1,11 +1,13 @@
 // Entry of `npm run worker` (the Procfile's `worker:`): with REDIS_URL set, runs jobs that the
-// web process enqueued. Several such processes may run at once, on one machine or many; each
-// runs WORKER_CONCURRENCY jobs at a time, each job's features in a worker thread of its own.
+// web process enqueued, and submits the jobs of schedules when their time comes. Several such
+// processes may run at once, on one machine or many; each runs WORKER_CONCURRENCY jobs at a
+// time, each job's features in a worker thread of its own.
 // SIGTERM (or SIGINT): running jobs stop after their current feature and go back to the queue;
 // the process exits within LISSOM_SHUTDOWN_MS (jobs/runner/settings.ts) whatever happens.
 import { closeDatabase, migrateDatabase } from "../app/.server/db/client.server";
 import { env } from "../app/.server/env.server";
 import { logger } from "../app/.server/logger.server";
+import { startScheduleTicks, stopSchedules } from "../app/.server/schedules.server";
 import { sweepStaleStaging } from "../app/.server/storage.server";
 import { closeQueue } from "./queue";
 import { runnerSettings } from "./runner/settings";
@@ -28,6 +30,8 @@ const swept = await sweepStaleStaging();
 if (swept > 0) logger.info({ folders: swept }, "removed staging folders left by stopped processes");
 if (!stopping) {
   worker = startJobWorker({ concurrency: settings.WORKER_CONCURRENCY });
+  // Schedule ticks are taken here too, so nightly schedules run while no web process does.
+  startScheduleTicks();
   logger.info({ concurrency: settings.WORKER_CONCURRENCY, pid: process.pid }, "worker started");
 }
 
@@ -43,6 +47,7 @@ async function shutdown(signal: string) {
   hardStop.unref();
   const inTime = worker ? await shutdownJobWorker(worker, runner.LISSOM_SHUTDOWN_MS) : true;
   if (!inTime) logger.warn("running jobs did not stop in time; the queue gives them to another worker once their lock expires");
+  await stopSchedules().catch(() => undefined);
   await closeQueue().catch(() => undefined);
   await closeDatabase();
   logger.info("worker stopped");

@@ -327,7 +327,7 @@ let retryTimer: NodeJS.Timeout | undefined;
  * every 30 s until it answers.
  */
 export async function startSchedules(): Promise<void> {
-  worker ??= startScheduleWorker(runScheduleTick, (error) => logger.error({ err: error }, "schedule worker error"));
+  startScheduleTicks();
   try {
     const rows = await db().query.schedules.findMany({ where: eq(schema.schedules.paused, false) });
     const { upserted, removed } = await syncSchedulers(rows.map((r) => ({ id: r.id, cron: r.cron, timezone: r.timezone })));
@@ -337,6 +337,15 @@ export async function startSchedules(): Promise<void> {
     retryTimer = setTimeout(() => void startSchedules(), 30_000);
     retryTimer.unref();
   }
+}
+
+/**
+ * In `npm run worker` processes (a real Redis): take ticks too, so schedules keep submitting
+ * while no web process runs. Only the web process syncs the job schedulers; each tick is taken
+ * by one process, and a tick handled twice submits once (`runScheduleTick`).
+ */
+export function startScheduleTicks(): void {
+  worker ??= startScheduleWorker(runScheduleTick, (error) => logger.error({ err: error }, "schedule worker error"));
 }
 
 export async function stopSchedules(): Promise<void> {
