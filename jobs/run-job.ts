@@ -212,13 +212,17 @@ interface Source {
   inputFiles: { name: string; path: string }[];
 }
 
-async function runWhole(job: JobRow, attempt: number, source: Source, ctx: RunContext): Promise<RunOutcome> {
-  const d = db();
+/** An attempt begins: the job is running again from no progress. */
+async function markRunning(job: JobRow, source: Source): Promise<void> {
   const started = new Date();
-  await d
+  await db()
     .update(schema.jobs)
     .set({ status: "running", startedAt: job.startedAt ?? started, progress: 0, featuresDone: 0, featuresTotal: source.features, message: null, updatedAt: started })
     .where(eq(schema.jobs.id, job.id));
+}
+
+async function runWhole(job: JobRow, attempt: number, source: Source, ctx: RunContext): Promise<RunOutcome> {
+  await markRunning(job, source);
   const log = jobLog(job.id, attempt);
   const steps = job_steps(job);
   await log.info(`Attempt ${attempt} started: ${steps.map((s) => s.step).join(" → ")} on ${source.datasetName ?? "dataset"} v${source.version.version} (${source.features ?? "?"} features).`);
@@ -243,12 +247,7 @@ async function runWhole(job: JobRow, attempt: number, source: Source, ctx: RunCo
 }
 
 async function splitJob(job: JobRow, attempt: number, source: Source, chunkVertices: number, ctx: RunContext): Promise<RunOutcome> {
-  const d = db();
-  const started = new Date();
-  await d
-    .update(schema.jobs)
-    .set({ status: "running", startedAt: job.startedAt ?? started, progress: 0, featuresDone: 0, featuresTotal: source.features, message: null, updatedAt: started })
-    .where(eq(schema.jobs.id, job.id));
+  await markRunning(job, source);
   const log = jobLog(job.id, attempt);
   await log.info(
     `Attempt ${attempt} started: ${source.vertices.toLocaleString("en-GB")} vertices is above the fan-out threshold, so the dataset is cut into chunks of about ${chunkVertices.toLocaleString("en-GB")} vertices that run as separate queue entries.`,
@@ -267,7 +266,7 @@ async function splitJob(job: JobRow, attempt: number, source: Source, chunkVerti
     throw error;
   });
   const now = new Date();
-  await d.transaction(async (tx) => {
+  await db().transaction(async (tx) => {
     await tx.delete(schema.jobs).where(eq(schema.jobs.parentId, job.id));
     for (const c of result.chunks) {
       await tx.insert(schema.jobs).values({
