@@ -125,13 +125,7 @@ export async function runChunk(chunkId: string, ctx: RunContext = {}): Promise<R
     return finishEarly(chunk, attempt, run.outcome, chunkLog);
   }
   const relative = chunkDir(parent.id, chunk.chunkIndex!);
-  await storage(async () => {
-    await removeStored(relative);
-    await commitStagingDir(staging, relative);
-  }).catch(async (error: unknown) => {
-    await removeStored(staging);
-    throw error;
-  });
+  await placeStaging(staging, relative);
   const result = run.result as Extract<PipelineResult, { kind: "process" }>;
   const finished = new Date();
   await d.transaction(async (tx) => {
@@ -212,6 +206,20 @@ interface Source {
   inputFiles: { name: string; path: string }[];
 }
 
+/**
+ * Moves a finished staging folder to `relative`, replacing what an earlier attempt left there;
+ * if storage refuses, the staging folder is removed and the error goes on (nothing half-placed).
+ */
+async function placeStaging(staging: string, relative: string): Promise<void> {
+  await storage(async () => {
+    await removeStored(relative);
+    await commitStagingDir(staging, relative);
+  }).catch(async (error: unknown) => {
+    await removeStored(staging);
+    throw error;
+  });
+}
+
 /** An attempt begins: the job is running again from no progress. */
 async function markRunning(job: JobRow, source: Source): Promise<void> {
   const started = new Date();
@@ -259,12 +267,8 @@ async function splitJob(job: JobRow, attempt: number, source: Source, chunkVerti
     return finishEarly(job, attempt, run.outcome, log);
   }
   const result = run.result as Extract<PipelineResult, { kind: "split" }>;
-  const relative = `work/${job.id}/split`;
   await removeStored(`work/${job.id}`);
-  await storage(() => commitStagingDir(staging, relative)).catch(async (error: unknown) => {
-    await removeStored(staging);
-    throw error;
-  });
+  await placeStaging(staging, `work/${job.id}/split`);
   const now = new Date();
   await db().transaction(async (tx) => {
     await tx.delete(schema.jobs).where(eq(schema.jobs.parentId, job.id));
@@ -475,13 +479,7 @@ async function publish(
 ): Promise<void> {
   const d = db();
   const relative = `outputs/${job.id}/attempt-${attempt}`;
-  await storage(async () => {
-    await removeStored(relative);
-    await commitStagingDir(staging, relative);
-  }).catch(async (error: unknown) => {
-    await removeStored(staging);
-    throw error;
-  });
+  await placeStaging(staging, relative);
   const outputFiles = await Promise.all(written.map(async (w) => ({ ...w, size: (await stat(join(storagePath(relative), w.fileName))).size })));
   const previous = await d.query.outputs.findMany({ where: eq(schema.outputs.jobId, job.id) });
   const finished = new Date();
