@@ -116,15 +116,8 @@ export default async function runnerBench(): Promise<void> {
   } finally {
     await stopWorkers();
     await closeQueue();
-    const { Redis } = await import("ioredis");
-    const conn = new Redis(redisUrl);
-    let cursor = "0";
-    do {
-      const [next, keys] = await conn.scan(cursor, "MATCH", `${prefix}:*`, "COUNT", 1000);
-      cursor = next;
-      if (keys.length) await conn.del(...keys);
-    } while (cursor !== "0");
-    await conn.quit();
+    const { dropQueueKeys } = await import("../integration/runner/harness");
+    await dropQueueKeys(prefix);
     rmSync(dir, { recursive: true, force: true });
     for (const [k, v] of Object.entries(saved)) {
       if (v === undefined) delete process.env[k];
