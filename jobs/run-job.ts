@@ -483,6 +483,8 @@ async function publish(
   const outputFiles = await Promise.all(written.map(async (w) => ({ ...w, size: (await stat(join(storagePath(relative), w.fileName))).size })));
   const previous = await d.query.outputs.findMany({ where: eq(schema.outputs.jobId, job.id) });
   const finished = new Date();
+  const time = timing ? ` in ${seconds(timing.elapsedMs)}, ${geometry(timing.geometryMs, timing.elapsedMs)}` : "";
+  const finishedLine = `Finished: ${plural(features, "feature")} (${counts})${time}; output ${outputFiles.map((f) => f.fileName).join(", ")}.`;
   try {
     await d.transaction(async (tx) => {
       await tx.delete(schema.featureReports).where(eq(schema.featureReports.jobId, job.id));
@@ -507,6 +509,7 @@ async function publish(
         .update(schema.jobs)
         .set({ status: "successful", progress: 100, featuresDone: features, featuresTotal: features, finishedAt: finished, updatedAt: finished, message: `${plural(features, "feature")}: ${counts}` })
         .where(and(eq(schema.jobs.id, job.id), sql`${schema.jobs.status} != 'dismissed'`));
+      await jobLog(job.id, attempt, tx).info(finishedLine);
     });
   } catch (error) {
     await removeStored(relative);
@@ -516,9 +519,6 @@ async function publish(
     const oldDir = old.storagePath.split("/").slice(0, -1).join("/");
     if (oldDir !== relative) await removeStored(oldDir);
   }
-  const log = jobLog(job.id, attempt);
-  const time = timing ? ` in ${seconds(timing.elapsedMs)}, ${geometry(timing.geometryMs, timing.elapsedMs)}` : "";
-  await log.info(`Finished: ${plural(features, "feature")} (${counts})${time}; output ${outputFiles.map((f) => f.fileName).join(", ")}.`);
 }
 
 async function insertReports(tx: Tx, jobId: string, reports: FeatureReport[]): Promise<void> {
