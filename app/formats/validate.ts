@@ -35,7 +35,7 @@ export function checkFeature(raw: unknown, index: number, ctx: CheckContext): Ch
     throw new DatasetInputError({ file: ctx.file, feature: index, reason, hint });
   };
   if (raw === null || typeof raw !== "object" || Array.isArray(raw)) {
-    refuse(`is ${describeValue(raw)}, not a GeoJSON Feature object`, "Each member of `features` must be an object with \"type\": \"Feature\" (RFC 7946 §3.3)");
+    refuse(`is ${describeValue(raw)}, not a GeoJSON Feature object`, "Each feature must be a JSON object with \"type\": \"Feature\" (RFC 7946 §3.2)");
   }
   const obj = raw as Record<string, unknown>;
   if (obj.type !== "Feature") {

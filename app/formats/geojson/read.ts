@@ -145,13 +145,14 @@ export async function* readJsonLines(file: InputFile, options: ReadOptions, sink
   function* take(pieces: JsonPiece[]): Generator<FeatureItem> {
     for (const piece of pieces) {
       if (piece.kind !== "root") continue;
-      const value = piece.value as Record<string, unknown>;
+      // Anything that is not an object (null, a number, text) goes to the gate, which names it.
+      const value = (piece.value !== null && typeof piece.value === "object" ? piece.value : {}) as Record<string, unknown>;
       const parts: unknown[] =
         value.type === "FeatureCollection" && Array.isArray(value.features)
           ? (value.features as unknown[])
           : typeof value.type === "string" && GEOMETRY_TYPES.has(value.type)
             ? [{ type: "Feature", properties: null, geometry: value }]
-            : [value];
+            : [piece.value];
       for (const raw of parts) {
         lineOf.clear();
         lineOf.set(index, piece.line);
