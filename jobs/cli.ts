@@ -15,7 +15,7 @@ import { basename, dirname, join } from "node:path";
 import { parseArgs } from "node:util";
 import { describeCrs, normaliseCode } from "../app/geometry/crs";
 import { DEFAULT_CORNER_ANGLE } from "../app/geometry/fit";
-import { DatasetInputError, OUTPUT_EXTENSIONS, inspectDataset, outputFormatForPath, readFeatures, writeOutput } from "../app/formats";
+import { DatasetInputError, OUTPUT_EXTENSIONS, inspectDataset, keepInputGeometry, outputFormatForPath, readFeatures, wantsInputLayer, writeOutput } from "../app/formats";
 import { runFeatureStep, type FeatureReport, type StepName } from "./steps/index";
 
 const USAGE = `usage:
@@ -124,14 +124,14 @@ export async function main(argv: string[]): Promise<number> {
       lastProgress = now;
       process.stderr.write(`lissom ${step}: ${done}/${total} features (${Math.round((done / Math.max(1, total)) * 100)}%)\n`);
     };
+    const inputLayer = wantsInputLayer([format]);
     async function* results() {
       let done = 0;
       for await (const { index, feature } of readFeatures(files, readOptions)) {
         const r = runFeatureStep(step, params as never, feature, index, crs);
         if (r.report.status === "error") throw new InputError(input, index, r.report.reason ?? "invalid feature");
         reports.push(r.report);
-        // The SVG writer draws the input beside the result; other writers leave this member out.
-        if (format === "svg") (r.feature as { inputGeometry?: unknown }).inputGeometry = feature.geometry;
+        if (inputLayer) keepInputGeometry(r.feature, feature);
         yield r.feature;
         progress(++done);
       }

@@ -4,7 +4,7 @@ import { join } from "node:path";
 import { and, asc, count, desc, eq, inArray, sql } from "drizzle-orm";
 import { db, schema } from "../app/.server/db/client.server";
 import { commitStagingDir, makeStagingDir, removeStored, storagePath, storageRoot } from "../app/.server/storage.server";
-import { OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES, type OutputFormat } from "../app/formats";
+import { OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES, wantsInputLayer, type OutputFormat } from "../app/formats";
 import { jobLog, type JobLog } from "./job-log";
 import type { FeatureReport } from "./steps";
 import { enqueueChunks } from "./runner/enqueue";
@@ -117,7 +117,7 @@ export async function runChunk(chunkId: string, ctx: RunContext = {}): Promise<R
   const run = await runTaskInto(
     staging,
     ctx,
-    { kind: "process", input: { chunkFile: storagePath(splitFile(parent.id, chunk.chunkIndex!)), crs: source.crs }, steps: job_steps(parent), output: { kind: "chunk", path: join(staging, "output.ndjson"), inputLayer: outputFormats(parent.inputs).includes("svg") }, stepsModule: ctx.stepsModule },
+    { kind: "process", input: { chunkFile: storagePath(splitFile(parent.id, chunk.chunkIndex!)), crs: source.crs }, steps: job_steps(parent), output: { kind: "chunk", path: join(staging, "output.ndjson"), inputLayer: wantsInputLayer(outputFormats(parent.inputs)) }, stepsModule: ctx.stepsModule },
     { job: chunk, parent, log: chunkLog, reports, total: chunk.featuresTotal },
   );
   if (run.outcome !== "done") {

@@ -86,6 +86,7 @@ export { DEFAULT_DBF_ENCODING } from "./shapefile/encoding";
 export { writeOutput, outputFormatForPath, sidecarPath, OUTPUT_EXTENSIONS, OUTPUT_MEDIA_TYPES } from "./write/index";
 export type { OutputMeta, WriteResult } from "./write/index";
 export { DEFAULT_CAUTION } from "./write/meta";
+export { keepInputGeometry, wantsInputLayer } from "./write/features";
 export type {
   ControlPoint,
   CrsSummary,

@@ -27,7 +27,7 @@ import { mkdir, rename, rm } from "node:fs/promises";
 import { join } from "node:path";
 import { createInterface } from "node:readline";
 import { describeCrs } from "../../app/geometry/crs";
-import { OUTPUT_EXTENSIONS, readFeatures, writeOutput, type OutputFormat } from "../../app/formats";
+import { OUTPUT_EXTENSIONS, keepInputGeometry, readFeatures, wantsInputLayer, writeOutput, type OutputFormat } from "../../app/formats";
 import { broadcast } from "../broadcast";
 import { runFeatureStep, type FeatureReport } from "../steps";
 
@@ -262,15 +262,14 @@ async function processTask(task: Extract<PipelineTask, { kind: "process" }>, con
     if (batch.length) hooks.onReports?.(batch);
     batch = [];
   };
-  const inputLayer = task.output.kind === "final" ? task.output.formats.includes("svg") : Boolean(task.output.inputLayer);
+  const inputLayer = task.output.kind === "final" ? wantsInputLayer(task.output.formats) : Boolean(task.output.inputLayer);
   async function* processed(): AsyncGenerator<IndexedFeature> {
     for await (const { index, feature } of readInput(task.input)) {
       checkStop(control);
       const t0 = performance.now();
       const result = runSteps(run, task.steps, feature, index, crs);
       geometryMs += performance.now() - t0;
-      // The SVG writer draws the input beside the result; every other writer leaves this out.
-      if (inputLayer) (result.feature as { inputGeometry?: unknown }).inputGeometry = (feature as { geometry?: unknown }).geometry;
+      if (inputLayer) keepInputGeometry(result.feature, feature);
       batch.push(result.report);
       if (batch.length >= REPORT_BATCH) flush();
       done++;

@@ -87,6 +87,16 @@ export function partIsRing(g: LinearGeometry): boolean {
   return g.type === "Polygon" || g.type === "MultiPolygon";
 }
 
+/** Whether the outputs draw each feature's input beside its result (SVG's input layer). */
+export function wantsInputLayer(formats: readonly string[]): boolean {
+  return formats.includes("svg");
+}
+
+/** Keeps a feature's input geometry on its result, for SVG's input layer; other writers leave it out. */
+export function keepInputGeometry(result: object, input: object): void {
+  (result as { inputGeometry?: unknown }).inputGeometry = (input as { geometry?: unknown }).geometry;
+}
+
 /** The members a writer puts out for a feature: no `inputGeometry` (that one is for SVG's input layer). */
 export function outputMembers(f: GeoJSONFeature): Record<string, unknown> {
   const { type: _t, id, properties, geometry, curves, inputGeometry: _i, ...rest } = f;
